@@ -37,12 +37,15 @@ def on_distinct(
         codes, uniques = pd.factorize(values, use_na_sentinel=False)
         arg = pd.Series(uniques, dtype=values.dtype if len(uniques) else "string")
     else:
-        both = pd.DataFrame({"value": values.to_numpy(), "extra": extra.to_numpy()})
-        codes, uniques_idx = pd.factorize(
-            pd.MultiIndex.from_frame(both.astype(object).where(both.notna(), None)),
-            use_na_sentinel=False,
-        )
-        arg = pd.DataFrame(list(uniques_idx), columns=["value", "extra"]).astype("string")
+        # Factorise each column, then the pair of integer codes: far cheaper than a
+        # MultiIndex of Python objects, and the same first-seen order.
+        values, extra = values.astype("string"), extra.astype("string")
+        vcodes, vuniques = pd.factorize(values.array, use_na_sentinel=False)
+        ecodes, euniques = pd.factorize(extra.array, use_na_sentinel=False)
+        width = max(len(euniques), 1)
+        codes, pairs = pd.factorize(vcodes.astype(np.int64) * width + ecodes)
+        arg = pd.DataFrame({"value": vuniques.take(pairs // width),
+                            "extra": euniques.take(pairs % width)})
     result = func(arg.reset_index(drop=True))
     out = result.iloc[np.asarray(codes, dtype=np.int64)]
     out.index = values.index
