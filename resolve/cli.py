@@ -127,5 +127,159 @@ def profile(inputs, mapping, encoding, delimiter, default_country, as_json):
         click.echo(format_profile(result))
 
 
+@main.command(context_settings=CONTEXT)
+@click.argument("inputs", nargs=-1, required=True, type=click.Path())
+@project_option
+@input_options
+@click.option("--today", default=None, help="Reference date (YYYY-MM-DD) for ages; default today.")
+@click.option("--auto-threshold", type=click.FloatRange(0, 1), default=None,
+              help="Match probability at or above which records are linked as one person "
+                   "(default: from the fitted model).")
+@click.option("--review-threshold", type=click.FloatRange(0, 1), default=None,
+              help="Match probability from which pairs go to review (default: from the model).")
+@click.option("--model", "model_path", type=click.Path(dir_okay=False), default=None,
+              help="Reuse a saved match model (model.json of an earlier run) instead of fitting.")
+@click.option("--rules", "rules_path", type=click.Path(dir_okay=False), default=None,
+              help="Signal rule overrides (TOML), see docs/signals.md.")
+@quiet_option
+@guarded
+def run(inputs, project, mapping, encoding, delimiter, default_country, today, auto_threshold,
+        review_threshold, model_path, rules_path, quiet):
+    """Run the whole pipeline on INPUT files into the project folder.
+
+    Ingest, normalise, find candidate pairs, score them, link, cluster, raise signals and
+    build the review queue. Earlier reviewer decisions in the project are re-applied.
+
+    \b
+    Example:
+      resolve run branch.csv app.jsonl cards.parquet --project book --country US
+    """
+    from resolve.pipeline import RunSettings, run_pipeline
+    from resolve.report import format_run_summary
+
+    settings = RunSettings(default_country=default_country, today=today,
+                           auto_threshold=auto_threshold, review_threshold=review_threshold,
+                           model_path=model_path, rules_path=rules_path, encoding=encoding,
+                           delimiter=delimiter)
+    progress = None if quiet else (lambda stage: click.echo(f"  {stage}...", err=True))
+    summary = run_pipeline(list(inputs), project, mapping, settings, progress=progress)
+    if not quiet:
+        click.echo(format_run_summary(summary))
+
+
+@main.command("demo-data", context_settings=CONTEXT)
+@click.option("--records", type=click.IntRange(20, 20_000_000), default=10_000, show_default=True,
+              help="Number of records in the extract.")
+@click.option("--seed", type=int, default=7, show_default=True, help="Random seed (same seed, same files).")
+@click.option("--out", "out_dir", required=True, type=click.Path(file_okay=False),
+              help="Folder to write customers.csv, truth.csv and README.txt into.")
+@click.option("--rate", "rates", multiple=True, metavar="NAME=VALUE",
+              help="Override a scenario rate, e.g. --rate household_share=0.1 (repeatable).")
+@click.option("--no-hard-cases", is_flag=True, help="Leave out the hard cases (twins, namesakes...).")
+@quiet_option
+@guarded
+def demo_data(records, seed, out_dir, rates, no_hard_cases, quiet):
+    """Write the invented demo scenario: an extract and its ground truth.
+
+    A regional credit union merging an acquired card portfolio with its branch and app
+    onboarding records. All people and institutions are invented.
+
+    \b
+    Example:
+      resolve demo-data --records 100000 --seed 7 --out demo-data
+    """
+    from resolve.demo import DemoRates, generate_demo
+
+    overrides = {}
+    for item in rates:
+        if "=" not in item:
+            raise click.UsageError(f"--rate takes NAME=VALUE, got '{item}'.")
+        name, value = item.split("=", 1)
+        overrides[name.strip()] = value.strip()
+    try:
+        demo_rates = DemoRates.from_overrides(overrides) if overrides else None
+    except ResolveError as exc:
+        raise click.UsageError(str(exc)) from None
+    summary = generate_demo(out_dir, records=records, seed=seed, rates=demo_rates,
+                            hard_cases=not no_hard_cases)
+    if not quiet:
+        click.echo("\n".join(summary.lines()))
+
+
+@main.command(context_settings=CONTEXT)
+@project_option
+@click.option("--truth", required=True, type=click.Path(dir_okay=False, exists=True),
+              help="Ground-truth CSV (record_id, person_id, household_id, ring_id, label).")
+@click.option("--json", "as_json", is_flag=True, help="Print the figures as JSON.")
+@click.option("--min-severity", type=click.Choice(["low", "medium", "high"]), default="medium",
+              show_default=True, help="Lowest flag severity that counts as flagged.")
+@guarded
+def evaluate(project, truth, as_json, min_severity):
+    """Compare a project's latest run with ground truth.
+
+    Same-person pairwise and B-cubed precision/recall/F1, over-merged and split persons,
+    household pairwise figures, risk-flag precision/recall, blocking reduction ratio and
+    pairs completeness, and a threshold sweep.
+
+    \b
+    Example:
+      resolve evaluate --project book --truth demo-data/truth.csv
+    """
+    from resolve.evaluate import evaluate as run_evaluation
+    from resolve.evaluate import format_report
+    from resolve.evaluate.inputs import load_run_for_evaluation, read_truth_csv
+
+    tables = load_run_for_evaluation(project)
+    result = run_evaluation(read_truth_csv(truth), min_severity=min_severity, **tables)
+    if as_json:
+        click.echo(json.dumps(result, indent=2, default=str))
+    else:
+        click.echo(format_report(result))
+
+
+@main.command(context_settings=CONTEXT)
+@project_option
+@click.argument("record_a")
+@click.argument("record_b")
+@click.option("--json", "as_json", is_flag=True, help="Print the evidence as JSON.")
+@guarded
+def explain(project, record_a, record_b, as_json):
+    """Field-by-field evidence for one pair of records (RECORD_A RECORD_B are record IDs).
+
+    Shows each field's comparison level, the values on both sides (national IDs masked),
+    m, u and the match weight, then the prior, total weight and probability.
+
+    \b
+    Example:
+      resolve explain --project book C-100234 A-88120
+    """
+    from resolve.explain_cli import explain_records, format_explanation
+
+    table = explain_records(project, record_a, record_b)
+    if as_json:
+        click.echo(table.to_json(orient="records", indent=2))
+    else:
+        click.echo(format_explanation(table, record_a, record_b))
+
+
+@main.command(context_settings=CONTEXT)
+@project_option
+@click.option("--reviewer", default=None, help="Reviewer name (default: project setting or OS user).")
+@guarded
+def review(project, reviewer):
+    """Open the terminal review workbench on a project.
+
+    \b
+    Example:
+      resolve review --project book --reviewer alex
+    """
+    from resolve.project import Project
+
+    Project.open(project)
+    from tui.app import make_app
+
+    make_app(project, reviewer=reviewer).run()
+
+
 if __name__ == "__main__":  # pragma: no cover
     main()

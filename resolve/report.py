@@ -45,3 +45,24 @@ def format_profile(p: dict) -> str:
     for note in p.get("notes", []):
         out.append(f"note: {note}")
     return "\n".join(out)
+
+
+def format_run_summary(s) -> str:
+    """Render a `resolve.pipeline.RunSummary` as a short summary."""
+    links = ", ".join(f"{k} {v:,}" for k, v in sorted(s.links.items()))
+    total = sum(s.timings.values())
+    lines = [
+        f"{s.run_id} saved in {s.project}",
+        f"Input rows {s.input_rows:,} = accepted {s.accepted:,} + quarantined {s.quarantined:,}",
+        f"Candidate pairs {s.candidate_pairs:,}; links: {links}",
+        f"Entities {s.entities:,} ({s.multi_record_entities:,} with several records); "
+        f"households {s.households:,}; identity-sharing groups {s.groups:,}",
+        f"Flags {s.flags:,} on {s.flagged_records:,} records; review queue {s.queue:,} items",
+        f"Thresholds: auto {s.model['thresholds']['auto']:.3f}, "
+        f"review {s.model['thresholds']['review']:.3f}",
+        "Stages: " + ", ".join(f"{k} {v:.1f}s" for k, v in s.timings.items())
+        + f" (total {total:.1f}s)",
+        "Links and flags are leads for human review, not findings about a person.",
+    ]
+    lines += [f"note: {n}" for n in s.notes]
+    return "\n".join(lines)
