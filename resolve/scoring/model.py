@@ -1,0 +1,309 @@
+"""The match model: m and u probabilities per field level, the prior, and the thresholds.
+
+A `MatchModel` is everything needed to turn comparison levels into match weights. It saves
+as plain JSON that a person can read and edit (field -> levels -> m, u, label), so a model
+fitted on one extract can be reviewed, adjusted and reused on the next without refitting.
+
+Weights follow Fellegi & Sunter (1969, JASA 64:1183-1210): a level's match weight is
+log2(m / u), where m is the probability of the level among true matches and u among
+non-matches. Neutral levels (missing values) weigh 0. The prior weight is log2(λ / (1 - λ)),
+λ being the share of matches among the candidate pairs.
+"""
+
+from __future__ import annotations
+
+import json
+import math
+from dataclasses import dataclass, field
+from pathlib import Path
+from typing import Any
+
+import numpy as np
+
+from resolve.compare.levels import FIELD_BY_NAME, FIELDS, FieldSpec
+from resolve.errors import InputError
+
+FORMAT = "resolve.match-model"
+VERSION = 1
+
+
+def match_weight(m: float, u: float) -> float:
+    """Fellegi-Sunter weight of observing a level: log2(m / u), in bits."""
+    return math.log2(m / u)
+
+
+def weight_to_probability(weight: np.ndarray | float) -> np.ndarray | float:
+    """Match probability from a total weight (log2 odds): 2^w / (1 + 2^w), overflow-safe."""
+    w = np.asarray(weight, dtype=np.float64)
+    return 0.5 * (1.0 + np.tanh(w * (math.log(2.0) / 2.0)))
+
+
+def probability_to_weight(p: float) -> float:
+    """Total weight (log2 odds) for a match probability strictly between 0 and 1."""
+    return math.log2(p / (1.0 - p))
+
+
+@dataclass
+class LevelParams:
+    """m and u of one comparison level (neutral levels have neither: weight 0)."""
+
+    code: int
+    name: str
+    label: str
+    m: float | None = None
+    u: float | None = None
+    neutral: bool = False
+
+    @property
+    def weight(self) -> float:
+        """log2(m / u); 0 for a neutral level."""
+        if self.neutral or self.m is None or self.u is None:
+            return 0.0
+        return match_weight(self.m, self.u)
+
+
+@dataclass
+class FieldModel:
+    """The levels of one compared field and whether term-frequency adjustment applies."""
+
+    name: str
+    levels: list[LevelParams]
+    term_frequency: bool = False
+
+    @property
+    def spec(self) -> FieldSpec:
+        """The catalogue entry of this field."""
+        return FIELD_BY_NAME[self.name]
+
+    def level(self, code: int) -> LevelParams:
+        """The parameters of the level with this code."""
+        for lvl in self.levels:
+            if lvl.code == code:
+                return lvl
+        raise KeyError(code)
+
+    def weight_table(self) -> np.ndarray:
+        """Weight per level code (index = code), float64."""
+        table = np.zeros(self.spec.n_levels, dtype=np.float64)
+        for lvl in self.levels:
+            table[lvl.code] = lvl.weight
+        return table
+
+    def exact_codes(self) -> list[int]:
+        """Codes of the exact-agreement levels (where term-frequency adjustment can apply)."""
+        return [lvl.code for lvl in self.spec.levels if lvl.exact]
+
+
+@dataclass
+class Thresholds:
+    """Decision thresholds derived from the costs of the three possible outcomes.
+
+    With a false merge costing ``false_merge`` units, a missed merge ``missed_merge`` and a
+    reviewer's look ``review``, the cheapest action for a pair with match probability p is:
+    accept when (1 - p) * false_merge <= min(review, p * missed_merge); send to review when
+    review is cheaper than both automatic actions; otherwise leave the pair unlinked.
+    """
+
+    false_merge: float = 10.0
+    missed_merge: float = 1.0
+    review: float = 0.1
+
+    def __post_init__(self) -> None:
+        if min(self.false_merge, self.missed_merge, self.review) <= 0:
+            raise InputError("Decision costs must be positive numbers; fix the model file.")
+
+    @property
+    def accept_probability(self) -> float:
+        """Lowest match probability that is merged without review."""
+        fm, mm, rv = self.false_merge, self.missed_merge, self.review
+        if rv < fm * mm / (fm + mm):
+            return 1.0 - rv / fm
+        return fm / (fm + mm)
+
+    @property
+    def review_probability(self) -> float:
+        """Lowest match probability worth a reviewer's time."""
+        fm, mm, rv = self.false_merge, self.missed_merge, self.review
+        if rv < fm * mm / (fm + mm):
+            return rv / mm
+        return fm / (fm + mm)
+
+    @property
+    def accept_weight(self) -> float:
+        """`accept_probability` as a total weight (log2 odds)."""
+        return probability_to_weight(self.accept_probability)
+
+    @property
+    def review_weight(self) -> float:
+        """`review_probability` as a total weight (log2 odds)."""
+        return probability_to_weight(self.review_probability)
+
+    def to_dict(self) -> dict[str, Any]:
+        """Costs (what is read back) and the derived thresholds (shown for reading)."""
+        return {
+            "costs": {
+                "false_merge": self.false_merge,
+                "missed_merge": self.missed_merge,
+                "review": self.review,
+            },
+            "accept_probability": round(self.accept_probability, 6),
+            "review_probability": round(self.review_probability, 6),
+            "accept_weight": round(self.accept_weight, 4),
+            "review_weight": round(self.review_weight, 4),
+        }
+
+
+@dataclass
+class MatchModel:
+    """Fellegi-Sunter match model: per-field level probabilities, prior and thresholds."""
+
+    fields: dict[str, FieldModel]
+    prior: float
+    thresholds: Thresholds = field(default_factory=Thresholds)
+    tf_min_u: float = 1e-5
+    fit: dict[str, Any] = field(default_factory=dict)
+
+    @property
+    def prior_weight(self) -> float:
+        """log2(λ / (1 - λ)): the weight every pair starts from."""
+        return math.log2(self.prior / (1.0 - self.prior))
+
+    def field_names(self) -> list[str]:
+        """The modelled fields in catalogue order."""
+        return [spec.name for spec in FIELDS if spec.name in self.fields]
+
+    # ----- JSON ---------------------------------------------------------------------------
+    def to_dict(self) -> dict[str, Any]:
+        """Plain data for JSON: readable, with the computed weight beside each m and u."""
+        fields_out: dict[str, Any] = {}
+        for name in self.field_names():
+            fm = self.fields[name]
+            levels = []
+            for lvl in fm.levels:
+                entry: dict[str, Any] = {"level": lvl.code, "name": lvl.name, "label": lvl.label}
+                if lvl.neutral:
+                    entry["neutral"] = True
+                else:
+                    entry["m"] = _round(lvl.m)
+                    entry["u"] = _round(lvl.u)
+                    entry["weight"] = round(lvl.weight, 4)
+                levels.append(entry)
+            fields_out[name] = {"term_frequency": fm.term_frequency, "levels": levels}
+        return {
+            "format": FORMAT,
+            "version": VERSION,
+            "note": (
+                "Scoring reads m and u of each level (weight = log2(m/u)); 'weight' is shown "
+                "for reading and is recomputed on load. Edit m, u, prior or costs, then score."
+            ),
+            "prior": {"lambda": _round(self.prior), "weight": round(self.prior_weight, 4)},
+            "thresholds": self.thresholds.to_dict(),
+            "term_frequency": {"min_u": self.tf_min_u},
+            "fields": fields_out,
+            "fit": self.fit,
+        }
+
+    @classmethod
+    def from_dict(cls, data: dict[str, Any]) -> "MatchModel":
+        """Rebuild a model from `to_dict` output (possibly edited by hand), with checks."""
+        if data.get("format") != FORMAT:
+            raise InputError("This file is not a resolve match model; pass a file saved by it.")
+        if data.get("version") != VERSION:
+            raise InputError(
+                f"Match model version {data.get('version')} is not supported; refit the model."
+            )
+        try:
+            fields_in = data["fields"]
+            prior = float(data["prior"]["lambda"])
+            costs = data.get("thresholds", {}).get("costs", {})
+            thresholds = Thresholds(**{k: float(v) for k, v in costs.items()})
+            tf_min_u = float(data.get("term_frequency", {}).get("min_u", 1e-5))
+            fields = {
+                name: _field_from_dict(name, spec) for name, spec in fields_in.items()
+            }
+        except (KeyError, TypeError, ValueError) as exc:
+            raise InputError(
+                f"The match model file is incomplete or malformed ({exc}); refit or fix it."
+            ) from None
+        if not 0.0 < prior < 1.0:
+            raise InputError("The model prior (lambda) must be between 0 and 1; fix the file.")
+        if not 0.0 < tf_min_u < 1.0:
+            raise InputError("term_frequency.min_u must be between 0 and 1; fix the file.")
+        return cls(fields, prior, thresholds, tf_min_u, dict(data.get("fit", {})))
+
+    def save(self, path: str | Path) -> None:
+        """Write the model as indented JSON (stable key order, so files diff cleanly)."""
+        Path(path).write_text(json.dumps(self.to_dict(), indent=2) + "\n", encoding="utf-8")
+
+    @classmethod
+    def load(cls, path: str | Path) -> "MatchModel":
+        """Read a model saved by `save` (and perhaps edited by hand)."""
+        try:
+            data = json.loads(Path(path).read_text(encoding="utf-8"))
+        except FileNotFoundError:
+            raise InputError(f"No match model at {path}; check the path.") from None
+        except json.JSONDecodeError as exc:
+            raise InputError(
+                f"The match model {path} is not valid JSON (line {exc.lineno}); fix the file."
+            ) from None
+        return cls.from_dict(data)
+
+
+def _round(x: float | None) -> float | None:
+    """Probabilities to 8 significant digits: readable, and exact enough to score."""
+    return None if x is None else float(f"{x:.8g}")
+
+
+def _field_from_dict(name: str, data: dict[str, Any]) -> FieldModel:
+    if name not in FIELD_BY_NAME:
+        known = ", ".join(FIELD_BY_NAME)
+        raise InputError(f"The model names an unknown field {name!r}; use only {known}.")
+    spec = FIELD_BY_NAME[name]
+    by_code = {int(entry["level"]): entry for entry in data["levels"]}
+    levels = []
+    for lvl in spec.levels:
+        entry = by_code.get(lvl.code)
+        if entry is None:
+            raise InputError(f"The model lacks level {lvl.code} of {name}; refit the model.")
+        if lvl.neutral:
+            levels.append(LevelParams(lvl.code, lvl.name, lvl.label, neutral=True))
+            continue
+        m, u = float(entry["m"]), float(entry["u"])
+        if not (0.0 < m <= 1.0 and 0.0 < u <= 1.0):
+            raise InputError(
+                f"m and u of {name} level {lvl.code} must be in (0, 1]; fix the model file."
+            )
+        levels.append(LevelParams(lvl.code, lvl.name, entry.get("label", lvl.label), m, u))
+    return FieldModel(name, levels, bool(data.get("term_frequency", False)))
+
+
+def model_from_probabilities(
+    m: dict[str, dict[int, float]],
+    u: dict[str, dict[int, float]],
+    prior: float,
+    *,
+    term_frequency: tuple[str, ...] = (),
+    thresholds: Thresholds | None = None,
+    tf_min_u: float = 1e-5,
+    fit: dict[str, Any] | None = None,
+) -> MatchModel:
+    """Build a model from m and u per field and level code (neutral levels may be omitted)."""
+    fields: dict[str, FieldModel] = {}
+    for name in m:
+        spec = FIELD_BY_NAME[name]
+        levels = []
+        for lvl in spec.levels:
+            if lvl.neutral:
+                levels.append(LevelParams(lvl.code, lvl.name, lvl.label, neutral=True))
+            else:
+                levels.append(
+                    LevelParams(
+                        lvl.code,
+                        lvl.name,
+                        lvl.label,
+                        float(m[name][lvl.code]),
+                        float(u[name][lvl.code]),
+                    )
+                )
+        fields[name] = FieldModel(name, levels, name in term_frequency)
+    return MatchModel(fields, prior, thresholds or Thresholds(), tf_min_u, fit or {})

@@ -1,0 +1,111 @@
+"""Turn comparison levels into match weights and match probabilities.
+
+Each field's level is looked up in the model's weight table (log2(m/u)); exact-agreement
+levels of fields with term-frequency adjustment get log2(ū / f) added, f being the agreed
+value's frequency (see `resolve.scoring.tf`). The total weight is the sum of the field
+weights plus the prior weight, a log2 of the odds that the pair is a match; the probability
+is 2^w / (1 + 2^w).
+"""
+
+from __future__ import annotations
+
+from typing import Any, Mapping
+
+import numpy as np
+import pandas as pd
+
+from resolve.compare import FIELDS, CompareSettings, PreparedRecords, prepare_records
+from resolve.compare.align import pair_arrays
+from resolve.errors import InputError
+from resolve.scoring.model import MatchModel, weight_to_probability
+from resolve.scoring.tf import TF_FIELDS, tf_adjustment, tf_frequencies
+
+
+def field_weights(
+    compared: pd.DataFrame,
+    model: MatchModel,
+    prepared: PreparedRecords | None,
+    *,
+    with_tf_u: bool = False,
+) -> tuple[dict[str, np.ndarray], dict[str, np.ndarray]]:
+    """Per field: the weight of each pair (float64) and, if asked, the u used where the
+    term-frequency adjustment applied (NaN elsewhere).
+
+    Fields absent from the model weigh 0. Without ``prepared`` no term-frequency adjustment
+    is made.
+    """
+    weights: dict[str, np.ndarray] = {}
+    tf_used: dict[str, np.ndarray] = {}
+    a = b = None
+    if prepared is not None:
+        a, b = pair_arrays(compared, prepared.n)
+    for spec in FIELDS:
+        if spec.name not in model.fields:
+            weights[spec.name] = np.zeros(len(compared))
+            continue
+        if spec.column not in compared.columns:
+            raise InputError(
+                f"The pairs lack {spec.column}; run compare_pairs before scoring."
+            )
+        fm = model.fields[spec.name]
+        levels = compared[spec.column].to_numpy(dtype=np.int64)
+        table = fm.weight_table()
+        if levels.size and (levels.min() < 0 or levels.max() >= table.size):
+            raise InputError(
+                f"{spec.column} holds a level the model does not know; "
+                "compare and score with the same version of resolve."
+            )
+        w = table[levels]
+        used = np.full(levels.size, np.nan) if with_tf_u else np.zeros(0)
+        if fm.term_frequency and prepared is not None and spec.name in TF_FIELDS:
+            for code in fm.exact_codes():
+                rows = np.flatnonzero(levels == code)
+                if not rows.size:
+                    continue
+                lvl = fm.level(code)
+                freq, mean_share = tf_frequencies(prepared, spec.name, a[rows], b[rows])
+                adjustment = tf_adjustment(freq, mean_share, model.tf_min_u)
+                w[rows] += adjustment
+                if with_tf_u:  # the u that gives the adjusted weight: u * 2^-adjustment
+                    used[rows] = np.where(
+                        np.isnan(freq), np.nan, lvl.u * np.exp2(-adjustment)
+                    )
+        weights[spec.name] = w
+        if with_tf_u:
+            tf_used[spec.name] = used
+    return weights, tf_used
+
+
+def score_pairs(
+    compared: pd.DataFrame,
+    model: MatchModel,
+    people: pd.DataFrame | PreparedRecords | None = None,
+    identifiers: pd.DataFrame | None = None,
+    settings: CompareSettings | Mapping[str, Any] | None = None,
+) -> pd.DataFrame:
+    """Add match weights and probabilities to compared pairs.
+
+    ``compared`` is the output of `compare_pairs`. ``people`` and ``identifiers`` (or one
+    `PreparedRecords`) are needed for the term-frequency adjustment; without them exact
+    agreement uses the level's average u. ``settings`` are the comparison settings used
+    (they decide which identifier statuses count); ignored with `PreparedRecords`.
+
+    Adds float32 ``w_<field>`` per field, float32 ``weight`` (sum of field weights plus the
+    prior weight, log2 odds) and float64 ``prob``.
+    """
+    prepared: PreparedRecords | None
+    if people is None or isinstance(people, PreparedRecords):
+        prepared = people
+    else:
+        if identifiers is None:
+            identifiers = pd.DataFrame(columns=["rec", "kind", "key", "status", "detail"])
+        prepared = prepare_records(people, identifiers, settings)
+    weights, _ = field_weights(compared, model, prepared)
+    out = compared.copy()
+    total = np.full(len(compared), model.prior_weight, dtype=np.float64)
+    for spec in FIELDS:
+        out[spec.weight_column] = weights[spec.name].astype(np.float32)
+        total += weights[spec.name]
+    out["weight"] = total.astype(np.float32)
+    out["prob"] = weight_to_probability(out["weight"].to_numpy(dtype=np.float64))
+    return out
