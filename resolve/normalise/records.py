@@ -20,6 +20,7 @@ import pandas as pd
 
 from resolve.normalise.country import normalise_countries
 
+SERVICE_NUMBER_TYPES = ("toll_free", "premium_rate", "shared_cost", "uan", "voicemail")
 IDENTIFIER_COLUMNS = ["rec", "kind", "slot", "raw", "value", "key", "status", "reason", "detail"]
 
 
@@ -125,6 +126,14 @@ def normalise_records(records: pd.DataFrame, settings: NormaliseSettings | None 
     if stacked is not None:
         rec, slot, raw, ctx = stacked
         res = normalise_phones(raw, ctx)
+        # Service numbers (toll-free, premium, shared-cost...) belong to businesses such as
+        # call centres, not to a customer: keep them visible but never link on them.
+        service = res["number_type"].isin(SERVICE_NUMBER_TYPES).to_numpy() & (
+            res["status"] == "valid").to_numpy()
+        if service.any():
+            res = res.copy()
+            res.loc[service, "status"] = "placeholder"
+            res.loc[service, "reason"] = "service_number"
         parts.append(_identifier_frame("phone", rec, slot, raw, res, res["value"],
                                        res["number_type"]))
     stacked = _stack(records, "email", country)
