@@ -281,5 +281,7 @@ def review(project, reviewer):
     make_app(project, reviewer=reviewer).run()
 
 
+import resolve.cli_review  # noqa: E402,F401  (registers export, queue, decide, status, audit, reveal)
+
 if __name__ == "__main__":  # pragma: no cover
     main()

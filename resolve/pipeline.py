@@ -176,6 +176,9 @@ def run_pipeline(inputs: list[str | Path], project_dir: str | Path,
     }
     manifest["timings"] = dict(clock.timings)
     run = project.save_run(tables, manifest, documents={"model.json": model.to_dict()})
+    from resolve.project import register_run
+
+    register_run(project)
     clock.stage("done")
     link_counts = {str(k): int(v) for k, v in links["link_type"].value_counts().items()}
     sizes = entities["entity_id"].value_counts()

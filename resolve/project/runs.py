@@ -151,7 +151,7 @@ class Project:
         for name, frame in tables.items():
             target = tmp / f"{name}.parquet"
             table = pa.Table.from_pandas(frame, preserve_index=False)
-            pq.write_table(table, target, compression="zstd")
+            pq.write_table(table, target, compression="zstd", row_group_size=131_072)
             os.chmod(target, 0o600)
         for name, doc in (documents or {}).items():
             write_private_text(tmp / name, json.dumps(doc, indent=2, sort_keys=True, default=str))
