@@ -185,6 +185,22 @@ def test_one_edit_prefilter_never_misses(digits):
                 assert h["pre"][i] != h["pre"][j] and h["suf"][i] != h["suf"][j]
 
 
+@settings(max_examples=300, deadline=None)
+@given(st.lists(st.text(alphabet="abcdeéhilnorst", max_size=7), min_size=2, max_size=8))
+def test_one_slip_test_agrees_with_the_plain_rule(words):
+    """The vectorised slip test (with its pruning) equals the rule applied pair by pair."""
+    values = np.array(words, dtype=object)
+    a, b = np.meshgrid(np.arange(len(words)), np.arange(len(words)))
+    a, b = a.ravel(), b.ravel()
+    got = Vocabulary({}, values).one_edit(a, b, 4)
+    for i, j, hit in zip(a, b, got):
+        x, y = values[i], values[j]
+        one = OSA.distance(x, y) == 1
+        if min(len(x), len(y)) < 4:  # short names: only two neighbours swapped
+            one = one and len(x) == len(y) >= 2 and Levenshtein.distance(x, y) == 2
+        assert hit == one, (x, y)
+
+
 # ----- given and family names ---------------------------------------------------------------
 
 G, F = GIVEN_NAME.code_of, FAMILY_NAME.code_of
@@ -207,6 +223,18 @@ G, F = GIVEN_NAME.code_of, FAMILY_NAME.code_of
         ({"given_key": "j"}, {"given_key": "john"}, G("initial"), 0),
         ({"given_key": "k"}, {"given_key": "john"}, G("different"), 0),
         ({"given_key": "anna"}, {}, 0, 0),
+        # one typing slip that Jaro-Winkler leaves below the "similar" band (common practice)
+        ({"given_key": "june"}, {"given_key": "uune"}, G("one_edit"), 0),  # JW 0.833
+        ({"given_key": "mark"}, {"given_key": "matk"}, G("one_edit"), 0),  # JW 0.867
+        ({"given_key": "steven"}, {"given_key": "eteven"}, G("one_edit"), 0),
+        ({"given_key": "roy"}, {"given_key": "ryo"}, G("one_edit"), 0),  # short: swap counts
+        ({"given_key": "dan"}, {"given_key": "don"}, G("different"), 0),  # short: change not
+        ({"given_key": "ana"}, {"given_key": "aa"}, G("different"), 0),  # short: drop not
+        ({"given_key": "jon"}, {"given_key": "john"}, G("similar"), 0),  # JW 0.933 first
+        ({"given_key": "june"}, {"given_key": "uuno"}, G("different"), 0),  # two slips
+        ({"family_key": "wood"}, {"family_key": "wold"}, 0, F("one_edit")),
+        ({"family_key": "vu"}, {"family_key": "uv"}, 0, F("one_edit")),
+        ({"family_key": "lee"}, {"family_key": "lse"}, 0, F("different")),
         ({"family_key": "thompson"}, {"family_key": "thompson"}, 0, F("exact")),
         ({"family_key": "thompson"}, {"family_key": "thomson"}, 0, F("close")),  # JW 0.975
         ({"family_key": "smith"}, {"family_key": "smyth"}, 0, F("similar")),  # JW 0.893
@@ -244,6 +272,57 @@ def test_swapped_names_are_weighed_once_under_given_name():
         {"given_key": "jonson", "family_key": "marhta"},
     )
     assert (fuzzy["given_name"], fuzzy["family_name"]) == (G("swapped"), F("swapped"))
+
+
+@pytest.mark.parametrize(
+    ("a", "b"),
+    [
+        # the swapped family name is a compound holding the given name
+        (
+            {"given_key": "juan", "family_key": "sotelo"},
+            {"given_key": "sotelo", "family_key": "juan carlos", "family_first": "juan"},
+        ),
+        # the swapped family name is a typing slip away from the given name
+        (
+            {"given_key": "laura", "family_key": "hanson"},
+            {"given_key": "hanson", "family_key": "laurz"},
+        ),
+        (
+            {"given_key": "greg", "family_key": "payne"},
+            {"given_key": "pyane", "family_key": "greg"},
+        ),
+    ],
+)
+def test_swaps_with_compounds_and_slips(a, b):
+    got = levels_for(a, b)
+    assert (got["given_name"], got["family_name"]) == (G("swapped"), F("swapped"))
+
+
+def test_swap_with_a_nickname_uses_the_name_root_where_known():
+    people = people_frame(
+        [
+            {"given_key": "daniel", "family_key": "cooper"},
+            {"given_key": "cooper", "family_key": "danny"},
+            # a third record tells that "danny" is a form of "daniel"
+            {"given_key": "danny", "given_root": "daniel", "family_key": "ortiz"},
+        ]
+    )
+    pairs = pd.DataFrame({"rec_a": np.array([0], "int32"), "rec_b": np.array([1], "int32")})
+    out = compare_pairs(pairs, people)
+    assert int(out["lvl_given_name"].iloc[0]) == G("swapped")
+    unknown = compare_pairs(pairs, people.iloc[:2])
+    assert int(unknown["lvl_given_name"].iloc[0]) == G("different")
+
+
+def test_level_codes_are_ordered_and_named():
+    """Codes are dense from 0, 0 is missing, 1 is different; users look levels up by name."""
+    for spec in FIELDS:
+        codes = [lvl.code for lvl in spec.levels]
+        assert codes == list(range(len(codes)))
+        assert spec.level(0).name == "missing" and spec.level(1).name == "different"
+        assert len({lvl.name for lvl in spec.levels}) == len(codes)
+    assert G("initial") < G("one_edit") < G("similar") < G("close") < G("exact")
+    assert F("initial") < F("one_edit") < F("similar") < F("close") < F("exact")
 
 
 def test_exact_agreement_beats_swap():

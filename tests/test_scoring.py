@@ -11,10 +11,11 @@ import math
 import numpy as np
 import pandas as pd
 import pytest
-from hypothesis import given
+from hypothesis import given, settings
 from hypothesis import strategies as st
 
 from resolve.compare import FIELDS, compare_pairs
+from resolve.compare.levels import FAMILY_NAME, GIVEN_NAME, PHONE
 from resolve.errors import InputError
 from resolve.scoring import (
     MatchModel,
@@ -44,10 +45,18 @@ def test_fellegi_sunter_worked_example():
     assert match_weight(1 - 0.95, 1 - 0.01) == pytest.approx(-4.3074, abs=5e-5)
 
 
+def by_name(spec, values: dict[str, float]) -> dict[int, float]:
+    """m or u of one field keyed by level code, from a mapping of level names."""
+    return {spec.code_of(name): value for name, value in values.items()}
+
+
 def test_weights_are_summed_with_the_prior():
-    m = {"given_name": {1: 0.05, 2: 0.01, 3: 0.02, 4: 0.02, 5: 0.05, 6: 0.01, 7: 0.84}}
-    u = {"given_name": {1: 0.95, 2: 0.001, 3: 0.02, 4: 0.01, 5: 0.005, 6: 0.0001, 7: 0.0139}}
-    model = model_from_probabilities(m, u, prior=0.2)
+    names = ("different", "initial", "one_edit", "similar", "close", "equivalent", "swapped")
+    m = dict(zip(names, (0.05, 0.01, 0.01, 0.01, 0.02, 0.05, 0.01)), exact=0.84)
+    u = dict(zip(names, (0.95, 0.001, 0.01, 0.01, 0.01, 0.005, 0.0001)), exact=0.0139)
+    model = model_from_probabilities(
+        {"given_name": by_name(GIVEN_NAME, m)}, {"given_name": by_name(GIVEN_NAME, u)}, prior=0.2
+    )
     people = people_frame([{"given_key": "anna"}, {"given_key": "anna"}, {"given_key": "olaf"}])
     pairs = pd.DataFrame({"rec_a": np.array([0, 0], "int32"), "rec_b": np.array([1, 2], "int32")})
     scored = score_pairs(compare_pairs(pairs, people), model)
@@ -147,6 +156,35 @@ def test_em_recovers_known_m_u_and_prior():
         np.testing.assert_allclose(result.m[f][1:], m_true[f][1:], atol=0.02)
         np.testing.assert_allclose(result.u[f][1:], u_true[f][1:], atol=0.02)
         assert result.m[f][0] == 0 and result.u[f][0] == 0
+
+
+def test_fitted_probabilities_mean_what_they_say():
+    """Calibration on data drawn from a known model: among pairs given probability about p,
+    about a share p are matches, and the expected number of matches is the true one."""
+    rng = np.random.default_rng(2024)
+    m_true, u_true = known_model()
+    n_pairs, prior = 100_000, 0.2
+    is_match = rng.random(n_pairs) < prior
+    cols = []
+    for mf, uf in zip(m_true, u_true):
+        pick_m = np.searchsorted(np.cumsum(mf), rng.random(n_pairs) * mf.sum())
+        pick_u = np.searchsorted(np.cumsum(uf), rng.random(n_pairs) * uf.sum())
+        cols.append(np.minimum(np.where(is_match, pick_m, pick_u), len(mf) - 1))
+    levels = np.column_stack(cols)
+    neutral = [np.arange(len(x)) == 0 for x in m_true]
+    start_m = [np.where(np.arange(len(x)) == 0, 0, np.linspace(0.1, 1.1, len(x))) for x in m_true]
+    start_m = [x / x.sum() for x in start_m]
+    start_u = [np.where(np.arange(len(x)) == 0, 0, 1.0 / (len(x) - 1)) for x in u_true]
+    fit = run_em(levels, neutral, start_m, start_u, 0.5, update_u=True, tolerance=1e-8)
+    weight = np.full(n_pairs, math.log2(fit.prior / (1 - fit.prior)))
+    for f in range(len(m_true)):
+        weight += np.log2(fit.m[f][levels[:, f]] / fit.u[f][levels[:, f]])
+    p = weight_to_probability(weight)
+    assert p.sum() == pytest.approx(is_match.sum(), rel=0.02)
+    for low, high in [(0.0, 0.1), (0.1, 0.5), (0.5, 0.9), (0.9, 0.99), (0.99, 1.01)]:
+        band = (p >= low) & (p < high)
+        assert band.sum() > 200
+        assert is_match[band].mean() == pytest.approx(p[band].mean(), abs=0.03), (low, high)
 
 
 def test_em_with_u_fixed_recovers_m():
@@ -276,6 +314,13 @@ def tf_model():
     return fit_model(compared, people, ids), people, ids
 
 
+def shared_share(counts: list[int], total: int) -> float:
+    """ū by hand: the average, over records whose value another record holds too, of the
+    share of the other records holding it, (n - 1) / (N - 1)."""
+    shared = [n for n in counts if n >= 2]
+    return sum(n * (n - 1) for n in shared) / ((total - 1) * sum(shared))
+
+
 def test_rare_surname_outweighs_common_surname():
     model, people, ids = tf_model()
     # pair 1: two strangers called smith; pair 2: two strangers called quill. Family names
@@ -297,17 +342,66 @@ def test_rare_surname_outweighs_common_surname():
     scored = score_pairs(compare_pairs(pairs, both, ids), model, both, ids)
     smith, quill = scored["w_family_name"].tolist()
     assert quill > smith
-    # frequency-based weights (Winkler 1989, from memory): the weight moves by
-    # log2(sum of squared shares / share of the agreed value); 18 vs 6 holders of 44
-    shares = both["family_key"].value_counts(normalize=True)
-    mean_share = float((shares**2).sum())
-    level = model.fields["family_name"].level(6)
-    assert smith == pytest.approx(level.weight + math.log2(mean_share / (18 / 44)), abs=1e-4)
-    assert quill == pytest.approx(level.weight + math.log2(mean_share / (6 / 44)), abs=1e-4)
-    assert quill - smith == pytest.approx(math.log2(3), abs=1e-4)
+    # frequency-based weights (Winkler 1989, from memory), counted over the values two
+    # records can share: the weight moves by log2(ū / ((n - 1) / (N - 1))); 18 and 6
+    # holders of 44, the other five names 4 holders each
+    mean_share = shared_share([18, 6, 4, 4, 4, 4, 4], 44)
+    level = model.fields["family_name"].level(FAMILY_NAME.code_of("exact"))
+    assert level.raw_weight > 1  # far enough from the bound at 0 to show the adjustment
+    assert smith == pytest.approx(level.raw_weight + math.log2(mean_share / (17 / 43)), abs=1e-4)
+    assert quill == pytest.approx(level.raw_weight + math.log2(mean_share / (5 / 43)), abs=1e-4)
+    assert quill - smith == pytest.approx(math.log2(17 / 5), abs=1e-4)
     # without the people table there is no adjustment: both get the level's weight
     plain = score_pairs(compare_pairs(pairs, both, ids), model)
     assert plain["w_family_name"].tolist() == pytest.approx([level.weight] * 2, abs=1e-5)
+
+
+def test_values_nobody_shares_do_not_lower_the_average():
+    """Two records of one person are the only holders of their address; most addresses are
+    held once. Agreeing on a value held by two is the typical agreement: no adjustment."""
+    from resolve.scoring.tf import shared_frequencies
+
+    holders = np.array([2, 2, 2, 1, 1, 1, 1, 1, 1, 1])
+    share, mean_share = shared_frequencies(holders, int(holders.sum()))
+    assert share[0] == pytest.approx(1 / 12) and share[3] == 0.0
+    assert mean_share == pytest.approx(1 / 12)  # every shared value is held by two
+    # the classic average over all values, sum of squared shares, sits below every value
+    # two records can share and would take weight from every agreement
+    classic = float(((holders / holders.sum()) ** 2).sum())
+    assert classic < 2 / 13
+    share, mean_share = shared_frequencies(np.array([1, 1, 1]), 3)
+    assert math.isnan(mean_share)  # nothing shared: nothing to adjust
+
+
+@settings(max_examples=40, deadline=None)
+@given(
+    st.lists(st.integers(0, 5), min_size=4, max_size=30),
+    st.lists(st.floats(1e-4, 1.0), min_size=16, max_size=16),
+    st.floats(1e-6, 0.2),
+)
+def test_agreement_never_counts_against_a_match(surnames, probs, min_u):
+    """Whatever m, u and value frequencies: agreement weighs at least 0, "different" at
+    most 0 (an agreeing field never scores below a blank one, a differing one never above)."""
+    people = people_frame(
+        [{"given_key": f"g{k % 3}", "family_key": f"f{v}"} for k, v in enumerate(surnames)]
+    )
+    a, b = np.triu_indices(len(people), k=1)
+    pairs = pd.DataFrame({"rec_a": a.astype("int32"), "rec_b": b.astype("int32")})
+    m, u = {}, {}
+    for k, spec in enumerate((GIVEN_NAME, FAMILY_NAME)):
+        codes = [lvl.code for lvl in spec.levels if not lvl.neutral]
+        m[spec.name] = {c: probs[(k * 8 + i) % 16] for i, c in enumerate(codes)}
+        u[spec.name] = {c: probs[(k * 8 + i + 5) % 16] for i, c in enumerate(codes)}
+    model = model_from_probabilities(
+        m, u, 0.3, term_frequency=("given_name", "family_name"), tf_min_u=min_u
+    )
+    scored = score_pairs(compare_pairs(pairs, people), model, people)
+    for spec in (GIVEN_NAME, FAMILY_NAME):
+        level = scored[spec.column].to_numpy()
+        weight = scored[spec.weight_column].to_numpy()
+        assert np.all(weight[level > 1] >= 0)
+        assert np.all(weight[level == 1] <= 0)
+        assert np.all(weight[level == 0] == 0)
 
 
 def test_landline_shared_by_many_weighs_less_than_a_personal_number():
@@ -324,15 +418,16 @@ def test_landline_shared_by_many_weighs_less_than_a_personal_number():
     )
     w = score_pairs(compare_pairs(pairs, people, ids), model, people, ids)["w_phone"].tolist()
     busy_line, mobile, quiet_line = w
-    mean_share = (8 / 12) ** 2 + (2 / 12) ** 2 + (2 / 12) ** 2  # 12 records hold a phone
+    mean_share = shared_share([8, 2, 2], 12)  # 12 records hold a phone; 60 / 132 = 5 / 11
+    assert mean_share == pytest.approx(5 / 11)
     assert busy_line == pytest.approx(
-        math.log2(0.2 / 0.004) + math.log2(mean_share / (8 / 12)), abs=1e-4
+        math.log2(0.2 / 0.004) + math.log2(mean_share / (7 / 11)), abs=1e-4
     )
     assert mobile == pytest.approx(
-        math.log2(0.5 / 0.006) + math.log2(mean_share / (2 / 12)), abs=1e-4
+        math.log2(0.5 / 0.006) + math.log2(mean_share / (1 / 11)), abs=1e-4
     )
     assert quiet_line == pytest.approx(
-        math.log2(0.2 / 0.004) + math.log2(mean_share / (2 / 12)), abs=1e-4
+        math.log2(0.2 / 0.004) + math.log2(mean_share / (1 / 11)), abs=1e-4
     )
     assert busy_line < quiet_line < mobile
 
@@ -341,9 +436,11 @@ def test_tf_floor_caps_the_weight():
     model, people, ids = tf_model()
     model.tf_min_u = 0.5  # absurdly high floor: no value counts as rarer than half the records
     scored = score_pairs(compare_pairs(small_run()[2], people, ids), model, people, ids)
-    shares = people["family_key"].value_counts(normalize=True)
-    cap = model.fields["family_name"].level(6).weight + math.log2(float((shares**2).sum()) / 0.5)
-    exact = scored["lvl_family_name"] == 6
+    counts = people["family_key"].value_counts().tolist()
+    exact_code = FAMILY_NAME.code_of("exact")
+    raw = model.fields["family_name"].level(exact_code).raw_weight
+    cap = max(raw + math.log2(shared_share(counts, len(people)) / 0.5), 0.0)
+    exact = scored["lvl_family_name"] == exact_code
     assert scored.loc[exact, "w_family_name"].max() == pytest.approx(cap, abs=1e-4)
 
 
@@ -384,8 +481,31 @@ def test_hand_edited_model_is_used_and_checked(tmp_path):
     path.write_text(json.dumps({"format": "something else"}))
     with pytest.raises(InputError):
         MatchModel.load(path)
+    # a model of the first file version used other level codes for the names: refit
+    path.write_text(json.dumps(model.to_dict() | {"version": 1}))
+    with pytest.raises(InputError, match="refit"):
+        MatchModel.load(path)
+    # a level whose name does not match its code in this version is refused
+    data = model.to_dict()
+    data["fields"]["given_name"]["levels"][3]["name"] = "similar"
+    path.write_text(json.dumps(data))
+    with pytest.raises(InputError, match="one_edit"):
+        MatchModel.load(path)
     with pytest.raises(InputError):
         MatchModel.load(tmp_path / "absent.json")
+
+
+def test_bounded_levels_are_shown_in_the_model_file():
+    m = {"phone": by_name(PHONE, {"different": 0.2, "shared_fixed": 0.01, "shared_mobile": 0.79})}
+    u = {"phone": by_name(PHONE, {"different": 0.5, "shared_fixed": 0.04, "shared_mobile": 0.46})}
+    model = model_from_probabilities(m, u, 0.5)
+    fixed = model.fields["phone"].level(PHONE.code_of("shared_fixed"))
+    assert fixed.raw_weight == pytest.approx(-2.0) and fixed.weight == 0.0
+    entry = model.to_dict()["fields"]["phone"]["levels"][PHONE.code_of("shared_fixed")]
+    assert entry["weight"] == 0.0 and entry["weight_before_bound"] == pytest.approx(-2.0)
+    # "different" is never evidence for a match
+    m["phone"][1], u["phone"][1] = 0.6, 0.3
+    assert model_from_probabilities(m, u, 0.5).fields["phone"].level(1).weight == 0.0
 
 
 # ----- explain ------------------------------------------------------------------------------
@@ -422,57 +542,57 @@ def test_mask_identifier():
 def worked_example():
     """The model and the two records of the worked example (invented)."""
 
-    def spread(agree: dict[int, float], spec_name: str, u_side: bool) -> dict[int, float]:
+    def spread(agree: dict[str, float], spec, u_side: bool) -> dict[int, float]:
         # levels the example does not reach get filler values; only the ratio m/u matters
-        spec = next(s for s in FIELDS if s.name == spec_name)
         out = {lvl.code: (0.9 if u_side else 0.1) for lvl in spec.levels if not lvl.neutral}
-        out.update(agree)
+        out.update(by_name(spec, agree))
         return out
 
-    m = {
-        "given_name": spread({3: 0.04}, "given_name", False),
-        "family_name": spread({6: 0.92}, "family_name", False),
-        "suffix": spread({}, "suffix", False),
-        "birth_date": spread({3: 0.03}, "birth_date", False),
-        "national_id": spread({}, "national_id", False),
-        "phone": spread({1: 0.30}, "phone", False),
-        "email": spread({}, "email", False),
-        "address": spread({1: 0.35}, "address", False),
+    fields = {spec.name: spec for spec in FIELDS}
+    m_used = {
+        "given_name": {"similar": 0.04},
+        "family_name": {"exact": 0.92},
+        "birth_date": {"one_part": 0.03},
+        "phone": {"different": 0.30},
+        "address": {"exact": 0.80},
     }
-    u = {
-        "given_name": spread({3: 0.004}, "given_name", True),
-        "family_name": spread({6: 0.0009}, "family_name", True),
-        "suffix": spread({}, "suffix", True),
-        "birth_date": spread({3: 0.004}, "birth_date", True),
-        "national_id": spread({}, "national_id", True),
-        "phone": spread({1: 0.9999}, "phone", True),
-        "email": spread({}, "email", True),
-        "address": spread({1: 0.998}, "address", True),
+    u_used = {
+        "given_name": {"similar": 0.004},
+        "family_name": {"exact": 0.0009},
+        "birth_date": {"one_part": 0.004},
+        "phone": {"different": 0.9999},
+        "address": {"exact": 0.83},
     }
-    model = model_from_probabilities(m, u, prior=0.02, term_frequency=("family_name",))
+    m = {name: spread(m_used.get(name, {}), spec, False) for name, spec in fields.items()}
+    u = {name: spread(u_used.get(name, {}), spec, True) for name, spec in fields.items()}
+    model = model_from_probabilities(
+        m, u, prior=0.02, term_frequency=("family_name", "address")
+    )
+    home = {
+        "house_number": "14",
+        "street_name": "quay street",
+        "postcode": "pw1 1aa",
+        "address_key": "14|quay street|pw1 1aa",
+    }
     rows = [
-        {
-            "given_key": "catherine",
-            "family_key": "moreau",
-            "birth_date": "1984-03-07",
-            "house_number": "14",
-            "street_name": "quay street",
-            "postcode": "pw1 1aa",
-            "address_key": "14|quay street|pw1 1aa",
-        },
-        {
-            "given_key": "katherine",
-            "family_key": "moreau",
-            "birth_date": "1984-03-17",
-            "house_number": "3",
-            "street_name": "mill lane",
-            "postcode": "pw9 9zz",
-            "address_key": "3|mill lane|pw9 9zz",
-        },
+        {"given_key": "catherine", "family_key": "moreau", "birth_date": "1984-03-07"} | home,
+        {"given_key": "katherine", "family_key": "moreau", "birth_date": "1984-03-17"} | home,
     ]
-    # 1,000 records with a family name: moreau on 5 of them, 995 names held once
+    # 1,000 records with a family name: moreau on 5 of them, 35 names on two records each,
+    # 925 names on one record each
     rows += [{"given_key": "filler", "family_key": "moreau"} for _ in range(3)]
-    rows += [{"given_key": "filler", "family_key": f"family{i}"} for i in range(995)]
+    rows += [{"given_key": "filler", "family_key": f"pair{i // 2}"} for i in range(70)]
+    rows += [{"given_key": "filler", "family_key": f"single{i}"} for i in range(925)]
+    # 100 records with an address: 14 quay street on 4 of them (the two records and two
+    # more moreaus: a household), 48 addresses on two records each
+    rows[2].update(home)
+    rows[3].update(home)
+    for i in range(96):
+        key = f"{i // 2}|lane {i // 2}|pw2 {i // 2}"
+        rows[5 + i].update(
+            {"house_number": str(i // 2), "street_name": f"lane {i // 2}",
+             "postcode": f"pw2 {i // 2}", "address_key": key}
+        )
     people = people_frame(rows)
     ids = id_frame(
         [
@@ -496,34 +616,45 @@ def test_worked_example_in_the_docs():
         "national_id": "missing",
         "phone": "different",
         "email": "missing",
-        "address": "different",
+        "address": "exact",
         "prior": "",
         "total": "",
     }
     weights = table["weight"].round(4).to_dict()
     assert weights == {
         "given_name": 3.3219,
-        "family_name": 7.7041,
+        "family_name": 8.2605,
         "suffix": 0.0,
         "birth_date": 2.9069,
         "national_id": 0.0,
         "phone": -1.7368,
         "email": 0.0,
-        "address": -1.5117,
+        "address": 0.0,
         "prior": -5.6147,
-        "total": 5.0697,
+        "total": 7.1378,
     }
-    # u after the adjustment: 0.0009 * 0.005 / 0.00102
-    assert table.loc["family_name", "u"] == pytest.approx(0.0044118, abs=1e-7)
-    assert table.loc["total", "probability"] == pytest.approx(0.9711, abs=5e-5)
+    # term-frequency adjustments: family name log2(1.2 / 4), address log2(1.08 / 3)
+    assert math.log2(0.3) == pytest.approx(-1.7370, abs=5e-5)
+    assert math.log2(0.36) == pytest.approx(-1.4739, abs=5e-5)
+    # u that gives the family-name weight: 0.0009 / 0.3; the bounded address: u = m
+    assert table.loc["family_name", "u"] == pytest.approx(0.003, abs=1e-7)
+    assert table.loc["address", "u"] == pytest.approx(0.80, abs=1e-7)
+    assert table.loc["address", "tf_adjusted"]
+    assert table.loc["total", "probability"] == pytest.approx(0.9929, abs=5e-5)
     t = model.thresholds
-    assert t.review_probability < table.loc["total", "probability"] < t.accept_probability
-    # without the term-frequency adjustment: log2(0.92/0.0009) and an automatic merge
+    assert table.loc["total", "probability"] >= t.accept_probability
+    # the address weight before the bound: log2(0.80 / 0.83) - 1.4739 = -1.5270; counted,
+    # it would have sent the pair to review
+    raw = math.log2(0.80 / 0.83) + math.log2(0.36)
+    assert raw == pytest.approx(-1.5270, abs=5e-5)
+    unbounded = float(weight_to_probability(7.1378 + raw))
+    assert unbounded == pytest.approx(0.9799, abs=5e-5)
+    assert t.review_probability < unbounded < t.accept_probability
+    # without the term-frequency adjustment: log2(0.92/0.0009) for the family name
     pairs = pd.DataFrame({"rec_a": np.array([0], "int32"), "rec_b": np.array([1], "int32")})
     no_tf = score_pairs(compare_pairs(pairs, people, ids), model)
     assert float(no_tf["w_family_name"].iloc[0]) == pytest.approx(9.9975, abs=5e-5)
-    assert float(no_tf["weight"].iloc[0]) == pytest.approx(7.3631, abs=5e-5)
-    assert float(no_tf["prob"].iloc[0]) == pytest.approx(0.9940, abs=5e-5)
+    assert float(no_tf["weight"].iloc[0]) == pytest.approx(8.8748, abs=5e-5)
 
 
 # ----- households: candidate non-matches that are not like random pairs ----------------------

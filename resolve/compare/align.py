@@ -15,7 +15,7 @@ from typing import Any, Callable, Mapping
 import numpy as np
 import pandas as pd
 from rapidfuzz import process
-from rapidfuzz.distance import JaroWinkler
+from rapidfuzz.distance import OSA, JaroWinkler, Levenshtein
 
 from resolve.errors import InputError
 
@@ -47,6 +47,9 @@ class CompareSettings:
     name_similar: float = 0.88
     #: Jaro-Winkler similarity of street names for the "close" address level.
     street_close: float = 0.90
+    #: Shortest name (in characters, the shorter of the two) for which any single edit counts
+    #: as the "one typing slip" name level; shorter names count only a swap of two neighbours.
+    name_one_edit_min_length: int = 4
     #: Identifier statuses that count as missing (never compared).
     unusable_status: tuple[str, ...] = ("placeholder", "missing")
     #: Phone number types treated as landlines or service numbers.
@@ -196,6 +199,35 @@ class Vocabulary:
         """Length in characters of each distinct value."""
         return self.features()[0]
 
+    def _gaps(self, ca: np.ndarray, cb: np.ndarray) -> tuple[np.ndarray, ...]:
+        """Lengths of both sides and how many letter buckets each has that the other lacks."""
+        lengths, masks = self.features()
+        ma, mb = masks[ca], masks[cb]
+        only_a = np.bitwise_count(ma & ~mb).astype(np.int32)
+        only_b = np.bitwise_count(mb & ~ma).astype(np.int32)
+        return lengths[ca], lengths[cb], only_a, only_b
+
+    @staticmethod
+    def _may_reach(gaps: tuple[np.ndarray, ...], threshold: float) -> np.ndarray:
+        """Rows whose Jaro-Winkler similarity can reach ``threshold`` (see `jaro_winkler`)."""
+        la, lb, only_a, only_b = gaps
+        common = np.maximum(np.minimum(la - only_a, lb - only_b), 0).astype(np.float64)
+        need = (threshold - 0.4) / 0.6 - 1e-9
+        # (c/la + c/lb + 1) / 3 >= need, multiplied out (lengths are positive here).
+        keep = common * (la + lb) >= (3.0 * need - 1.0) * la * lb
+        keep &= common > 0
+        keep |= (la == 0) & (lb == 0)  # two empty strings are identical
+        return keep
+
+    @staticmethod
+    def _may_slip(gaps: tuple[np.ndarray, ...], min_length: int) -> np.ndarray:
+        """Rows that can be one typing slip apart (see `one_edit`)."""
+        la, lb, only_a, only_b = gaps
+        shorter = np.minimum(la, lb)
+        keep = (np.abs(la - lb) <= 1) & (only_a <= 1) & (only_b <= 1) & (shorter >= 2)
+        keep &= (shorter >= min_length) | ((la == lb) & (only_a == 0) & (only_b == 0))
+        return keep
+
     def jaro_winkler(self, ca: np.ndarray, cb: np.ndarray, threshold: float) -> np.ndarray:
         """Jaro-Winkler similarity of ``values[ca]`` and ``values[cb]``, row by row.
 
@@ -204,21 +236,56 @@ class Vocabulary:
         JW <= 0.4 + 0.6 * Jaro, and Jaro <= (c/|a| + c/|b| + 1) / 3 where c, the number of
         matching characters, is at most each length minus the letters missing from the other.
         """
-        lengths, masks = self.features()
-        la, lb = lengths[ca], lengths[cb]
-        ma, mb = masks[ca], masks[cb]
-        only_a = np.bitwise_count(ma & ~mb).astype(np.int32)
-        only_b = np.bitwise_count(mb & ~ma).astype(np.int32)
-        common = np.maximum(np.minimum(la - only_a, lb - only_b), 0).astype(np.float64)
-        need = (threshold - 0.4) / 0.6 - 1e-9
-        # (c/la + c/lb + 1) / 3 >= need, multiplied out (lengths are positive here).
-        keep = common * (la + lb) >= (3.0 * need - 1.0) * la * lb
-        keep &= common > 0
-        keep |= (la == 0) & (lb == 0)  # two empty strings are identical
-        out = np.zeros(ca.shape[0], dtype=np.float32)
-        rows = np.flatnonzero(keep)
-        out[rows] = pair_scores(ca[rows], cb[rows], self.values, JaroWinkler.normalized_similarity)
-        return out
+        return self.spelling(ca, cb, threshold, None)[0]
+
+    def one_edit(self, ca: np.ndarray, cb: np.ndarray, min_length: int) -> np.ndarray:
+        """Whether ``values[ca]`` and ``values[cb]`` are one typing slip apart, row by row.
+
+        A slip is optimal string alignment distance 1: one character changed, dropped or
+        added, or two neighbours swapped. When the shorter value has fewer than
+        ``min_length`` characters only the swap counts: one changed letter turns many short
+        names into other real names (dan/don, kim/tim), a swap of neighbours rarely does.
+        Rows that cannot be one edit apart (lengths more than one apart, or more than one
+        letter on either side missing from the other) never reach the string scorer.
+        """
+        return self.spelling(ca, cb, None, min_length)[1]
+
+    def spelling(
+        self, ca: np.ndarray, cb: np.ndarray, threshold: float | None, min_length: int | None
+    ) -> tuple[np.ndarray, np.ndarray]:
+        """Jaro-Winkler similarity (as `jaro_winkler`, 0 without ``threshold``) and, for
+        the rows below ``threshold``, whether they are one typing slip apart (as `one_edit`;
+        all False without ``min_length``). Both tests share one pass over the letter masks.
+        """
+        gaps = self._gaps(ca, cb)
+        sim = np.zeros(ca.shape[0], dtype=np.float32)
+        slip = np.zeros(ca.shape[0], dtype=bool)
+        if threshold is not None:
+            rows = np.flatnonzero(self._may_reach(gaps, threshold))
+            sim[rows] = pair_scores(
+                ca[rows], cb[rows], self.values, JaroWinkler.normalized_similarity
+            )
+        if min_length is None:
+            return sim, slip
+        may = self._may_slip(gaps, min_length)
+        if threshold is not None:
+            may &= sim < threshold
+        rows = np.flatnonzero(may)
+        if not rows.size:
+            return sim, slip
+        dist = pair_scores(
+            ca[rows], cb[rows], self.values, OSA.distance, dtype=np.int32, score_cutoff=1
+        )
+        hit = dist == 1
+        short = hit & (np.minimum(gaps[0][rows], gaps[1][rows]) < min_length)
+        if short.any():  # a swap of neighbours costs 2 as plain edits, a changed letter 1
+            sub = rows[short]
+            plain = pair_scores(
+                ca[sub], cb[sub], self.values, Levenshtein.distance, dtype=np.int32
+            )
+            hit[np.flatnonzero(short)[plain != 2]] = False
+        slip[rows[hit]] = True
+        return sim, slip
 
 
 def lookup(table: np.ndarray, codes: np.ndarray, missing: Any = -1) -> np.ndarray:
@@ -236,11 +303,14 @@ def pair_scores(
     scorer: Callable[..., Any],
     *,
     dtype: Any = np.float32,
+    score_cutoff: float | None = None,
 ) -> np.ndarray:
     """Score ``values[ca]`` against ``values[cb]`` row by row with a rapidfuzz scorer.
 
     Pairs of codes are deduplicated (order-free: the scorers used are symmetric) and scored in
     one `process.cpdist` call, which runs in C++ on all cores; the result is spread back.
+    ``score_cutoff`` is passed to the scorer (for a distance: anything above it comes back as
+    cutoff + 1, which lets the scorer stop early).
     """
     if ca.size == 0:
         return np.zeros(0, dtype=dtype)
@@ -252,5 +322,7 @@ def pair_scores(
     right = values[distinct % width]
     # Small batches stay on one thread: starting workers costs more than it saves.
     workers = -1 if distinct.size > PARALLEL_FROM else 1
-    scores = process.cpdist(left, right, scorer=scorer, workers=workers, dtype=dtype)
+    scores = process.cpdist(
+        left, right, scorer=scorer, workers=workers, dtype=dtype, score_cutoff=score_cutoff
+    )
     return np.asarray(scores, dtype=dtype)[inverse]

@@ -13,7 +13,10 @@ family names are swapped; the swap is weighed once, under the given name.
 
 Levels marked ``exact`` are exact agreement on one value; the scoring stage can replace their
 u probability with the frequency of that value (term-frequency adjustment). The scoring stage,
-the model file and `explain_pair` all read level names and labels from here.
+the model file and `explain_pair` all read level names and labels from here. Code outside
+this package should look levels up by name (`FieldSpec.code_of("exact")`): numbers other
+than 0 (missing) and 1 (different) may change when a level is added, as they did when the
+name fields gained "one_edit".
 """
 
 from __future__ import annotations
@@ -74,6 +77,9 @@ class FieldSpec:
         return max(lvl.code for lvl in self.levels) + 1
 
 
+_SLIP = "one typing slip apart (a letter changed, dropped or added, or two swapped)"
+
+
 def _missing(what: str) -> Level:
     return Level(MISSING, "missing", f"{what} missing on one side", neutral=True)
 
@@ -85,11 +91,12 @@ GIVEN_NAME = FieldSpec(
         _missing("given name"),
         Level(DIFFERENT, "different", "given names differ"),
         Level(2, "initial", "one side is only an initial, and it matches"),
-        Level(3, "similar", "similar spelling"),
-        Level(4, "close", "very similar spelling"),
-        Level(5, "equivalent", "equivalent given names (same name root, e.g. a nickname)"),
-        Level(6, "swapped", "given and family names swapped"),
-        Level(7, "exact", "same given name", exact=True),
+        Level(3, "one_edit", _SLIP),
+        Level(4, "similar", "similar spelling"),
+        Level(5, "close", "very similar spelling"),
+        Level(6, "equivalent", "equivalent given names (same name root, e.g. a nickname)"),
+        Level(7, "swapped", "given and family names swapped"),
+        Level(8, "exact", "same given name", exact=True),
     ),
     tf_value="given_key",
 )
@@ -101,12 +108,13 @@ FAMILY_NAME = FieldSpec(
         _missing("family name"),
         Level(DIFFERENT, "different", "family names differ"),
         Level(2, "initial", "one side is only an initial, and it matches"),
-        Level(3, "similar", "similar spelling"),
-        Level(4, "close", "very similar spelling"),
-        Level(5, "part", "one part of a compound family name matches"),
-        Level(6, "exact", "same family name", exact=True),
+        Level(3, "one_edit", _SLIP),
+        Level(4, "similar", "similar spelling"),
+        Level(5, "close", "very similar spelling"),
+        Level(6, "part", "one part of a compound family name matches"),
+        Level(7, "exact", "same family name", exact=True),
         Level(
-            7,
+            8,
             "swapped",
             "given and family names swapped (weighed under the given name)",
             neutral=True,

@@ -2,14 +2,20 @@
 
 Names are compared on the normalised keys (`given_key`, `family_key`) produced by
 `resolve.normalise.names`. Exact and structural checks (same key, same name root, compound
-family-name parts, swapped given and family names) are integer comparisons over one shared
-vocabulary; spelling similarity is Jaro-Winkler (Winkler 1990; Jaro 1989) through rapidfuzz,
-computed once per distinct pair of names and only for pairs the cheaper checks left open.
+family-name parts) are integer comparisons over one shared vocabulary; spelling similarity
+is Jaro-Winkler (Winkler 1990; Jaro 1989) through rapidfuzz, computed once per distinct pair
+of names and only for pairs the cheaper checks left open. Jaro-Winkler forgives slips late
+in a name and punishes slips early in it (june/uune scores 0.83), so names the similarity
+bands leave out get one more test: one typing slip apart (optimal string alignment distance
+1; for names shorter than four letters only a swap of two neighbours counts). Swapped given
+and family names are found with the same tests applied crosswise, so a swap that also
+carries a compound family name, a nickname or a slip is still a swap.
 
 Precedence (the first rule that holds wins):
-given name  exact > equivalent root > swapped > initial > very similar > similar > different;
-family name exact > compound part > initial > very similar > similar > different, and the
-neutral "swapped" level when the given name took the swap.
+given name  exact > equivalent root > swapped > initial > very similar > similar > one slip
+            > different;
+family name exact > compound part > initial > very similar > similar > one slip > different,
+and the neutral "swapped" level when the given name took the swap.
 """
 
 from __future__ import annotations
@@ -46,6 +52,10 @@ class NameTables:
 
     vocab: Vocabulary
     columns: dict[str, np.ndarray]
+    #: Per vocabulary code: the code of its name root where the value occurs as a given name
+    #: (``given_root``), else the code itself; lets a family-name field holding "danny" match
+    #: a given name "daniel" when the fields are swapped.
+    root_of: np.ndarray | None = None
 
 
 def name_tables(people: pd.DataFrame) -> NameTables:
@@ -68,7 +78,34 @@ def name_tables(people: pd.DataFrame) -> NameTables:
         columns[f"{short}_single"] = lookup(single, vocab.codes[col], 0).astype(np.int32)
     suffix = text_column(people, "suffix").str.lower()
     columns["suffix"] = pd.factorize(suffix)[0].astype(np.int32)
-    return NameTables(vocab=vocab, columns=columns)
+    root_of = np.arange(len(vocab.values), dtype=np.int32)
+    key, root = vocab.codes["given_key"], vocab.codes["given_root"]
+    known = (key >= 0) & (root >= 0)
+    root_of[key[known]] = root[known]
+    return NameTables(vocab=vocab, columns=columns, root_of=root_of)
+
+
+def _same_name(x: np.ndarray, y: np.ndarray, root_of: np.ndarray | None) -> np.ndarray:
+    """Codes that are the same name: equal, or (where roots are known) the same name root."""
+    same = (x >= 0) & (x == y)
+    if root_of is not None and root_of.size:
+        same |= (x >= 0) & (y >= 0) & (lookup(root_of, x) == lookup(root_of, y))
+    return same
+
+
+def _or_spelled_alike(
+    vocab: Vocabulary, x: np.ndarray, y: np.ndarray, agree: np.ndarray, settings: CompareSettings
+) -> np.ndarray:
+    """``agree``, or else whether names x and y are spelled alike: Jaro-Winkler at least
+    the "similar" band, or one typing slip apart. Only rows not yet agreeing are scored."""
+    out = agree.copy()
+    open_rows = np.flatnonzero(~out & (x >= 0) & (y >= 0))
+    if open_rows.size:
+        sim, slip = vocab.spelling(
+            x[open_rows], y[open_rows], settings.name_similar, settings.name_one_edit_min_length
+        )
+        out[open_rows] = (sim >= settings.name_similar) | slip
+    return out
 
 
 def _assign(levels: np.ndarray, mask: np.ndarray, code: int) -> None:
@@ -114,23 +151,21 @@ def compare_names(
             part_match |= (xa >= 0) & (xa == xb)
     family[open_part[part_match]] = f_code("part")
 
-    # Given and family names swapped: checked where neither name agrees directly. The
-    # fuzzy version is only tried where the first letters match crosswise.
+    # Given and family names swapped: checked where neither name agrees directly. Each
+    # given name must agree with the other record's family name: the same name (same key or
+    # same name root: "daniel" / "danny"), one part of it when it is a compound ("juan" /
+    # "juan carlos"), or a similar spelling (Jaro-Winkler >= the "similar" band, or one
+    # typing slip).
     rows = np.flatnonzero((given < 0) & (family < 0))
-    exact_swap = (ga[rows] == fb[rows]) & (fa[rows] == gb[rows])
-    fuzzy = (
-        ~exact_swap
-        & (A["given_letter"][rows] == B["family_letter"][rows])
-        & (A["family_letter"][rows] == B["given_letter"][rows])
-    )
+    for first, second in ((A, B), (B, A)):  # each direction narrows the rows for the next
+        given_first = first["given_key"][rows]
+        agree = _same_name(given_first, second["family_key"][rows], names.root_of)
+        for col in part_cols[1:]:
+            agree |= (given_first >= 0) & (given_first == second[col][rows])
+        agree = _or_spelled_alike(vocab, given_first, second["family_key"][rows], agree, settings)
+        rows = rows[agree]
     swapped = np.zeros(ga.shape[0], dtype=bool)
-    swapped[rows[exact_swap]] = True
-    rows = rows[fuzzy]
-    if rows.size:
-        s1 = vocab.jaro_winkler(ga[rows], fb[rows], settings.name_close)
-        rows = rows[s1 >= settings.name_close]
-        s2 = vocab.jaro_winkler(fa[rows], gb[rows], settings.name_close)
-        swapped[rows[s2 >= settings.name_close]] = True
+    swapped[rows] = True
     _assign(given, swapped, g_code("swapped"))
     _assign(family, swapped, f_code("swapped"))
 
@@ -145,9 +180,10 @@ def compare_names(
         initial = single & (A[f"{short}_letter"][rows] == B[f"{short}_letter"][rows])
         lv[rows[initial]] = spec.code_of("initial")
         rows = rows[~initial]
-        sim = vocab.jaro_winkler(xa[rows], xb[rows], low)
+        sim, slip = vocab.spelling(xa[rows], xb[rows], low, settings.name_one_edit_min_length)
         lv[rows[sim >= settings.name_similar]] = spec.code_of("similar")
         lv[rows[sim >= settings.name_close]] = spec.code_of("close")
+        lv[rows[slip]] = spec.code_of("one_edit")
         lv[lv < 0] = DIFFERENT
     return given, family
 

@@ -8,6 +8,14 @@ Weights follow Fellegi & Sunter (1969, JASA 64:1183-1210): a level's match weigh
 log2(m / u), where m is the probability of the level among true matches and u among
 non-matches. Neutral levels (missing values) weigh 0. The prior weight is log2(λ / (1 - λ)),
 λ being the share of matches among the candidate pairs.
+
+Agreement never counts against a match and disagreement never counts for one: the weight
+of an agreement level (any level above "different"), after any term-frequency adjustment, is
+at least 0 — the weight of the field being blank — and the weight of "different" is at most
+0. Among candidate pairs the fields are not independent (households share a surname, an
+address, a landline and a mailbox together), and EM can then price an agreement below 0 or
+a disagreement above it; scored as it stands, blanking a shared address would raise a
+pair's score.
 """
 
 from __future__ import annotations
@@ -20,16 +28,26 @@ from typing import Any
 
 import numpy as np
 
-from resolve.compare.levels import FIELD_BY_NAME, FIELDS, FieldSpec
+from resolve.compare.levels import DIFFERENT, FIELD_BY_NAME, FIELDS, FieldSpec
 from resolve.errors import InputError
 
 FORMAT = "resolve.match-model"
-VERSION = 1
+VERSION = 2
 
 
 def match_weight(m: float, u: float) -> float:
     """Fellegi-Sunter weight of observing a level: log2(m / u), in bits."""
     return math.log2(m / u)
+
+
+def bounded_weight(weight: float, code: int) -> float:
+    """A level's weight as scored: at least 0 for agreement (codes above "different"), at
+    most 0 for "different". Neutral levels weigh 0 anyway."""
+    if code > DIFFERENT:
+        return max(weight, 0.0)
+    if code == DIFFERENT:
+        return min(weight, 0.0)
+    return weight
 
 
 def weight_to_probability(weight: np.ndarray | float) -> np.ndarray | float:
@@ -55,11 +73,16 @@ class LevelParams:
     neutral: bool = False
 
     @property
-    def weight(self) -> float:
-        """log2(m / u); 0 for a neutral level."""
+    def raw_weight(self) -> float:
+        """log2(m / u) as estimated; 0 for a neutral level."""
         if self.neutral or self.m is None or self.u is None:
             return 0.0
         return match_weight(self.m, self.u)
+
+    @property
+    def weight(self) -> float:
+        """The weight scoring uses: log2(m / u), bounded by 0 (see `bounded_weight`)."""
+        return bounded_weight(self.raw_weight, self.code)
 
 
 @dataclass
@@ -82,11 +105,13 @@ class FieldModel:
                 return lvl
         raise KeyError(code)
 
-    def weight_table(self) -> np.ndarray:
-        """Weight per level code (index = code), float64."""
+    def weight_table(self, *, raw: bool = False) -> np.ndarray:
+        """Weight per level code (index = code), float64: as scored (agreement at least 0),
+        or with ``raw`` the plain log2(m / u) (what the term-frequency adjustment starts from).
+        """
         table = np.zeros(self.spec.n_levels, dtype=np.float64)
         for lvl in self.levels:
-            table[lvl.code] = lvl.weight
+            table[lvl.code] = lvl.raw_weight if raw else lvl.weight
         return table
 
     def exact_codes(self) -> list[int]:
@@ -187,14 +212,17 @@ class MatchModel:
                     entry["m"] = _round(lvl.m)
                     entry["u"] = _round(lvl.u)
                     entry["weight"] = round(lvl.weight, 4)
+                    if lvl.weight != lvl.raw_weight:
+                        entry["weight_before_bound"] = round(lvl.raw_weight, 4)
                 levels.append(entry)
             fields_out[name] = {"term_frequency": fm.term_frequency, "levels": levels}
         return {
             "format": FORMAT,
             "version": VERSION,
             "note": (
-                "Scoring reads m and u of each level (weight = log2(m/u)); 'weight' is shown "
-                "for reading and is recomputed on load. Edit m, u, prior or costs, then score."
+                "Scoring reads m and u of each level (weight = log2(m/u), never below 0 for "
+                "an agreement level nor above 0 for 'different'); 'weight' is shown for "
+                "reading and is recomputed on load. Edit m, u, prior or costs, then score."
             ),
             "prior": {"lambda": _round(self.prior), "weight": round(self.prior_weight, 4)},
             "thresholds": self.thresholds.to_dict(),
@@ -265,6 +293,11 @@ def _field_from_dict(name: str, data: dict[str, Any]) -> FieldModel:
         entry = by_code.get(lvl.code)
         if entry is None:
             raise InputError(f"The model lacks level {lvl.code} of {name}; refit the model.")
+        if entry.get("name", lvl.name) != lvl.name:
+            raise InputError(
+                f"Level {lvl.code} of {name} is {lvl.name!r} in this version, not "
+                f"{entry['name']!r}; refit the model."
+            )
         if lvl.neutral:
             levels.append(LevelParams(lvl.code, lvl.name, lvl.label, neutral=True))
             continue

@@ -2,9 +2,10 @@
 
 Each field's level is looked up in the model's weight table (log2(m/u)); exact-agreement
 levels of fields with term-frequency adjustment get log2(ū / f) added, f being the agreed
-value's frequency (see `resolve.scoring.tf`). The total weight is the sum of the field
-weights plus the prior weight, a log2 of the odds that the pair is a match; the probability
-is 2^w / (1 + 2^w).
+value's frequency (see `resolve.scoring.tf`). An agreement level never weighs less than 0,
+after the adjustment too, and "different" never more than 0 (see `resolve.scoring.model`).
+The total weight is the sum of the field weights plus the prior weight, a log2 of the odds
+that the pair is a match; the probability is 2^w / (1 + 2^w).
 """
 
 from __future__ import annotations
@@ -28,8 +29,8 @@ def field_weights(
     *,
     with_tf_u: bool = False,
 ) -> tuple[dict[str, np.ndarray], dict[str, np.ndarray]]:
-    """Per field: the weight of each pair (float64) and, if asked, the u used where the
-    term-frequency adjustment applied (NaN elsewhere).
+    """Per field: the weight of each pair (float64) and, if asked, the u that gives that
+    weight where the term-frequency adjustment or the bound at 0 changed it (NaN elsewhere).
 
     Fields absent from the model weigh 0. Without ``prepared`` no term-frequency adjustment
     is made.
@@ -49,30 +50,32 @@ def field_weights(
             )
         fm = model.fields[spec.name]
         levels = compared[spec.column].to_numpy(dtype=np.int64)
-        table = fm.weight_table()
+        raw = fm.weight_table(raw=True)
+        table = fm.weight_table()  # bounded: agreement at least 0, "different" at most 0
         if levels.size and (levels.min() < 0 or levels.max() >= table.size):
             raise InputError(
                 f"{spec.column} holds a level the model does not know; "
                 "compare and score with the same version of resolve."
             )
         w = table[levels]
-        used = np.full(levels.size, np.nan) if with_tf_u else np.zeros(0)
+        changed = (table != raw)[levels] if with_tf_u else None
         if fm.term_frequency and prepared is not None and spec.name in TF_FIELDS:
-            for code in fm.exact_codes():
+            for code in fm.exact_codes():  # exact levels are agreement: bounded below by 0
                 rows = np.flatnonzero(levels == code)
                 if not rows.size:
                     continue
-                lvl = fm.level(code)
                 freq, mean_share = tf_frequencies(prepared, spec.name, a[rows], b[rows])
                 adjustment = tf_adjustment(freq, mean_share, model.tf_min_u)
-                w[rows] += adjustment
-                if with_tf_u:  # the u that gives the adjusted weight: u * 2^-adjustment
-                    used[rows] = np.where(
-                        np.isnan(freq), np.nan, lvl.u * np.exp2(-adjustment)
-                    )
+                w[rows] = np.maximum(raw[code] + adjustment, 0.0)
+                if changed is not None:
+                    changed[rows] |= ~np.isnan(freq)
+        if changed is not None:  # the u that gives the weight used: m * 2^-weight
+            m_table = np.full(table.size, np.nan)
+            for lvl in fm.levels:
+                if not lvl.neutral:
+                    m_table[lvl.code] = lvl.m
+            tf_used[spec.name] = np.where(changed, m_table[levels] * np.exp2(-w), np.nan)
         weights[spec.name] = w
-        if with_tf_u:
-            tf_used[spec.name] = used
     return weights, tf_used
 
 

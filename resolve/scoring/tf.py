@@ -2,17 +2,22 @@
 
 An exact-agreement level's u is an average over all the values pairs can agree on; it
 understates how telling a rare surname is and overstates a common one. Following the
-frequency-based weights of Winkler (1989; page numbers from memory, not re-read): if a
-share f_v of the records carry value v, two unrelated records agree on v with probability
-about f_v² and two records of one person about f_v, so among pairs that agree, the odds
-for "same person" change by the factor Σ_w f_w² / f_v. The adjusted weight is
+frequency-based weights of Winkler (1989; page numbers from memory, not re-read): among
+pairs that agree on a field, a match agrees on value v in proportion to how many records
+hold v, a pair of different people in proportion to how many *pairs* of records hold it.
+The adjusted weight is
 
-    log2(m / u) + log2(ū / max(f_v, floor)),    ū = Σ_w f_w²,
+    log2(m / u) + log2(ū / max(f_v, floor)),
 
-where ū is the chance that two random records agree at all. When u is the random-pair
-agreement rate (u = ū) this is log2(m / f_v): the value's frequency takes the place of u.
-The floor (`MatchModel.tf_min_u`) stops a value seen on only two records of a big extract
-from outweighing everything else.
+f_v = (n_v - 1) / (N - 1): the share of the other records that hold the value too (n_v
+records of N hold it), and ū: the average of f over the records whose value is held by at
+least one other record. Only such values can be agreed on, so only they enter the average;
+counting the values nobody shares (most addresses, phones and birth dates) would put the
+average below every value that two records can share, and every agreement would lose
+weight. A value shared by the typical number of records gets no adjustment, one held by
+fewer gains and one held by more loses. For large counts this is the classic ū = Σ f_w²
+against f_v. The floor (`MatchModel.tf_min_u`) stops a value seen on only two records of a
+big extract from outweighing everything else.
 
 For phones, emails and national IDs the value is the rarest one the two records share, so a
 landline or family mailbox held by many records weighs less than a personal one.
@@ -36,8 +41,24 @@ IDENTIFIER_FIELDS = ("national_id", "phone", "email")
 TF_FIELDS = tuple(RECORD_VALUE) + IDENTIFIER_FIELDS
 
 
+def shared_frequencies(holders: np.ndarray, total: int) -> tuple[np.ndarray, float]:
+    """Per value: the share of the other records holding it, (n - 1) / (N - 1); and ū.
+
+    ``holders[v]`` records of ``total`` hold value v. ū is the average of that share over
+    the records whose value at least one other record holds (NaN when no value is shared).
+    """
+    holders = np.asarray(holders, dtype=np.float64)
+    others = max(total - 1, 1)
+    share = np.maximum(holders - 1.0, 0.0) / others
+    shared = holders >= 2
+    if not shared.any():
+        return share, float("nan")
+    mean_share = float(np.sum(holders[shared] * share[shared]) / np.sum(holders[shared]))
+    return share, mean_share
+
+
 def _record_frequencies(prepared: PreparedRecords, field: str) -> tuple[np.ndarray, float]:
-    """Relative frequency of each record's own value (NaN where none), and Σ f² over values."""
+    """Share of the other records holding each record's own value (NaN where none), and ū."""
     col = prepared.matrix[:, prepared.column_index[RECORD_VALUE[field]]].astype(np.int64)
     has = col >= 0
     if field == "birth_date":  # only full dates agree exactly
@@ -46,16 +67,17 @@ def _record_frequencies(prepared: PreparedRecords, field: str) -> tuple[np.ndarr
     if not has.any():
         return out, float("nan")
     codes, _ = factorize_ints(col[has])
-    share = np.bincount(codes) / has.sum()
+    share, mean_share = shared_frequencies(np.bincount(codes), int(has.sum()))
     out[has] = share[codes]
-    return out, float(np.sum(share**2))
+    return out, mean_share
 
 
 def value_frequencies(prepared: PreparedRecords, field: str) -> tuple[np.ndarray, float]:
-    """Frequency of every value of ``field`` (by record or by identifier code) and Σ f².
+    """Frequency f of every value of ``field`` (by record or by identifier code) and ū.
 
-    Record-level fields give one frequency per record; identifier fields one per value code.
-    Cached on the prepared records.
+    Record-level fields give one frequency per record; identifier fields one per value code
+    (out of the records holding any value of that kind). See `shared_frequencies`. Cached on
+    the prepared records.
     """
     key = f"tf:{field}"
     if key not in prepared.cache:
@@ -63,8 +85,7 @@ def value_frequencies(prepared: PreparedRecords, field: str) -> tuple[np.ndarray
             prepared.cache[key] = _record_frequencies(prepared, field)
         elif field in IDENTIFIER_FIELDS:
             slots = prepared.identifiers[field]
-            share = slots.holders / max(slots.with_any, 1)
-            prepared.cache[key] = (share, float(np.sum(share**2)) if share.size else float("nan"))
+            prepared.cache[key] = shared_frequencies(slots.holders, slots.with_any)
         else:
             raise KeyError(f"No term-frequency value for field {field!r}")
     return prepared.cache[key]
@@ -73,7 +94,7 @@ def value_frequencies(prepared: PreparedRecords, field: str) -> tuple[np.ndarray
 def tf_frequencies(
     prepared: PreparedRecords, field: str, a: np.ndarray, b: np.ndarray
 ) -> tuple[np.ndarray, float]:
-    """Frequency of the agreed value for pairs that agree exactly on ``field``, and Σ f².
+    """Frequency f of the agreed value for pairs that agree exactly on ``field``, and ū.
 
     ``a`` and ``b`` are the record positions of pairs already known to agree exactly. For
     record-level fields the value is the first record's; for identifiers it is the rarest
