@@ -126,11 +126,15 @@ def format_result(r: dict) -> str:
            _row("peak memory", f"{r['peak_mb']:,} MB")]
     for stage, secs in r["timings"].items():
         out.append(_row(f"  stage {stage}", f"{secs:.2f} s"))
+    t = r["timings"]
+    out.append(_row("ingest + normalise", f"{t.get('ingest', 0) + t.get('normalise', 0):.2f} s"))
+    out.append(_row("candidates + compare + score",
+                    f"{t.get('candidates', 0) + t.get('compare', 0) + t.get('score', 0):.2f} s"))
     out.append(_row("candidate pairs", f"{r['candidate_pairs']:,}"))
-    sp = ev.get("same_person_pairwise") or {}
-    bc = ev.get("same_person_bcubed") or {}
-    hh = ev.get("household_pairwise") or {}
-    fl = ev.get("flags") or {}
+    sp = (ev.get("same_person") or {}).get("pairwise") or {}
+    bc = (ev.get("same_person") or {}).get("bcubed") or {}
+    hh = ev.get("households") or {}
+    fl = ev.get("risk_flags") or {}
     bl = ev.get("blocking") or {}
     fmt = lambda v: "n/a" if v is None else f"{v:.4f}"  # noqa: E731
     out.append(_row("same-person pairwise P/R/F1",
@@ -143,6 +147,9 @@ def format_result(r: dict) -> str:
                     f"{fmt(fl.get('precision'))} / {fmt(fl.get('recall'))}"))
     out.append(_row("blocking RR / PC",
                     f"{fmt(bl.get('reduction_ratio'))} / {fmt(bl.get('pairs_completeness'))}"))
+    for t in ev.get("thresholds") or []:
+        out.append(_row(f"  sweep t={t['threshold']}",
+                        f"P {fmt(t['precision'])} R {fmt(t['recall'])} F1 {fmt(t['f1'])}"))
     out.append(_row("evaluation time", f"{r['evaluation_s']:.1f} s"))
     return "\n".join(out)
 
