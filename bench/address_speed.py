@@ -79,7 +79,8 @@ def main() -> None:
         out = normalise_addresses(df["street"], df["city"], df["postcode"], "US")
         times.append(time.perf_counter() - start)
         cpu.append(time.process_time() - start_cpu)
-    print(f"normalise_addresses: best {min(times):.2f} s, runs " + ", ".join(f"{t:.2f}" for t in times)
+    print(f"normalise_addresses: best {min(times):.2f} s, runs "
+          + ", ".join(f"{t:.2f}" for t in times)
           + f"; CPU time best {min(cpu):.2f} s (wall time is inflated when other jobs share "
           "the cores)")
     print(out["status"].value_counts().to_string())

@@ -37,11 +37,15 @@ def make_names(records: int, distinct: int, seed: int = 7) -> tuple[pd.Series, p
 
     givens = vary(given_pool, distinct // 2)
     families = vary(family_pool, distinct // 2)
-    # Zipf-like reuse: common names are common.
-    gi = np.minimum(rng.zipf(1.3, records) - 1, len(givens) - 1)
-    fi = np.minimum(rng.zipf(1.2, records) - 1, len(families) - 1)
-    gi = rng.permutation(len(givens))[gi]
-    fi = rng.permutation(len(families))[fi]
+
+    # Every distinct value appears at least once; the rest follow a Zipf-like reuse
+    # (common names are common).
+    def draw(k: int, a: float) -> np.ndarray:
+        common = np.minimum(rng.zipf(a, records - k) - 1, k - 1)
+        picks = np.concatenate([np.arange(k), rng.permutation(k)[common]])
+        return rng.permutation(picks)
+
+    gi, fi = draw(len(givens), 1.3), draw(len(families), 1.2)
     return pd.Series(givens[gi], dtype="string"), pd.Series(families[fi], dtype="string")
 
 

@@ -117,8 +117,9 @@ def test_term_table_is_consistent():
 
 
 def test_the_same_home_written_many_ways_gets_one_key():
-    lines = ["12 Main Street Apt 4B", "Apt 4B, 12 Main St", "12 MAIN ST #4B", "12 Main St., Apartment 4b",
-             "12 main st unit 4b", "12 Main St, Suite 4B", "  12  Main   Street  # 4B "]
+    lines = ["12 Main Street Apt 4B", "Apt 4B, 12 Main St", "12 MAIN ST #4B",
+             "12 Main St., Apartment 4b", "12 main st unit 4b", "12 Main St, Suite 4B",
+             "  12  Main   Street  # 4B "]
     keys = {one(line)["address_key"] for line in lines}
     assert keys == {"12|main st|4b|02134|US"}
 
@@ -132,7 +133,8 @@ def test_uk_flat_first():
 
 def test_uk_house_name():
     row = one("Rose Cottage, Mill Lane", "Ambridge", "AB1 2AB", "GB")
-    assert (row["house_number"], row["street_name"], row["status"]) == ("rose cottage", "ml ln", "valid")
+    assert (row["house_number"], row["street_name"], row["status"]) == (
+        "rose cottage", "ml ln", "valid")
     # Without a second part there is nothing to tell the homes of one street apart.
     assert one("Mill Lane", "Ambridge", "AB1 2AB", "GB")["reason"] == "no_house_number"
 

@@ -329,4 +329,6 @@ def test_match_key_is_idempotent(values):
 def test_deterministic():
     given_ = pd.Series(["Bill", "José", None, "FNU", "J."] * 3)
     family_ = pd.Series(["Smith Jr", "García", "Lee", "Kumar", "O'Neil"] * 3)
-    pd.testing.assert_frame_equal(normalise_names(given_, family_), normalise_names(given_, family_))
+    pd.testing.assert_frame_equal(
+        normalise_names(given_, family_), normalise_names(given_, family_)
+    )

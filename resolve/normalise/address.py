@@ -38,7 +38,6 @@ from resolve.normalise.textkeys import (
     match_key,
     repeated_character,
     strings,
-    tidy,
     to_arrow,
     to_series,
 )
@@ -98,14 +97,14 @@ def normalise_addresses(
                 "The address columns must come from the same table; align them on one index first."
             )
     n = len(index)
-    countries = country_codes(country, n, default_country)
-    c_codes, c_values = distinct_codes(to_series(countries))
-    c_values = to_arrow(c_values)
+    c_codes, c_values = country_codes(country, n, default_country)
 
     # Street line: once per distinct (street, country) pair.
     s_codes, s_values = _distinct(street, n)
     rec_street, pair_street, pair_country = pair_codes(s_codes, c_codes)
-    sp = parse_streets(pc.take(s_values, pa.array(pair_street)), pc.take(c_values, pa.array(pair_country)))
+    sp = parse_streets(
+        pc.take(s_values, pa.array(pair_street)), pc.take(c_values, pa.array(pair_country))
+    )
 
     # Postcode: once per distinct (postcode, country) pair.
     p_codes, p_values = _distinct(postcode, n)
@@ -118,8 +117,8 @@ def normalise_addresses(
     t_codes, t_values = _distinct(city, n)
     city_key = _city_keys(t_values)
 
-    return _combine(index, countries, rec_street, sp, rec_post, post_value, post_status,
-                    t_codes, city_key)
+    return _combine(index, gather(c_values, c_codes), rec_street, sp, rec_post, post_value,
+                    post_status, t_codes, city_key)
 
 
 def _distinct(values: pd.Series | None, n: int) -> tuple[np.ndarray, pa.Array]:

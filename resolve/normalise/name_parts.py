@@ -57,7 +57,7 @@ PLACEHOLDER_PHRASES = frozenset(
 PLACEHOLDER_PAIRS = frozenset(
     {
         "john doe", "jane doe", "baby doe", "john roe", "jane roe", "richard roe",
-        "mickey mouse", "donald duck", "joe bloggs", "fred bloggs", "john smithtest",
+        "mickey mouse", "donald duck", "joe bloggs", "fred bloggs",
     }
 )
 # Middle-name keys that mean "no middle name".

@@ -182,9 +182,13 @@ def _strip_suffix(arr: pa.Array) -> tuple[pa.Array, pa.Array]:
     return tidy(text), pc.take(kept, pc.index_in(gen, value_set=keys))
 
 
-def _part_status(key: pa.Array, display: pa.Array, raw: pa.Array) -> tuple[np.ndarray, np.ndarray]:
-    """Status and reason codes for one name part (before record-level rules)."""
-    n = len(raw)
+def _part_status(key: pa.Array, display: pa.Array) -> tuple[np.ndarray, np.ndarray]:
+    """Status and reason codes for one name part (before record-level rules).
+
+    ``display`` is the part as written once titles and suffixes are off: null means the
+    part is missing; text whose key is empty (only punctuation) is a placeholder.
+    """
+    n = len(display)
     status = np.full(n, _VALID, dtype=np.int8)
     reason = np.zeros(n, dtype=np.int8)
     missing = pc.is_null(display).to_numpy(zero_copy_only=False)
@@ -233,7 +237,7 @@ def _given_parts(raw: pa.Array, keep_case: np.ndarray) -> dict:
     no_middle = pc.fill_null(pc.is_in(middle_key, value_set=strings(sorted(NO_MIDDLE))), False)
     middle_key = pc.if_else(no_middle, pa.scalar(None, STRING), middle_key)
     rest = pc.if_else(no_middle, pa.scalar(None, STRING), rest)
-    status, reason = _part_status(key_all, written, raw)
+    status, reason = _part_status(key_all, written)
     return {
         "given": first,
         "middle": rest,
@@ -262,7 +266,7 @@ def _family_parts(raw: pa.Array, keep_case: np.ndarray) -> dict:
     core_h = pc.coalesce(core_found, hyphened)
     core = tidy(pc.replace_substring(core_h, pattern="-", replacement=""))
     family_first = pc.struct_field(pc.extract_regex(core_h, pattern=r"^(?P<first>[^ -]+)"), [0])
-    status, reason = _part_status(key, text, raw)
+    status, reason = _part_status(key, text)
     single = pc.fill_null(pc.equal(pc.utf8_length(key), 1), False).to_numpy(zero_copy_only=False)
     fix = single & (status == _VALID)
     status[fix] = _INVALID

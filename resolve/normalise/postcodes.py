@@ -28,7 +28,15 @@ import pyarrow as pa
 import pyarrow.compute as pc
 
 from resolve.normalise import INVALID, MISSING, PLACEHOLDER, VALID
-from resolve.normalise.textkeys import STRING, distinct_codes, gather, strings, tidy, to_arrow, to_series
+from resolve.normalise.textkeys import (
+    STRING,
+    distinct_codes,
+    gather,
+    strings,
+    tidy,
+    to_arrow,
+    to_series,
+)
 
 COUNTRY_ALIASES = {
     "USA": "US", "U S": "US", "U S A": "US", "UNITED STATES": "US",
@@ -59,11 +67,16 @@ _PLACEHOLDERS = strings(
 )
 
 
-def country_codes(country: pd.Series | str | None, n: int, default: str = "US") -> pa.Array:
-    """Country of each record as an upper-case code; blank values take ``default``."""
+def country_codes(
+    country: pd.Series | str | None, n: int, default: str = "US"
+) -> tuple[np.ndarray, pa.Array]:
+    """Country of each record as (codes, distinct upper-case country codes).
+
+    ``values[codes]`` is the country of each record; blank values take ``default``. Two
+    spellings of one country ("USA", "US") may stay separate entries of ``values``.
+    """
     if country is None or isinstance(country, str):
-        code = _country_value(country or default)
-        return pa.array([code] * n, STRING) if n else strings([])
+        return np.zeros(n, dtype=np.int64), strings([_country_value(country or default)])
     codes, uniques = distinct_codes(country.astype("string"))
     raw = tidy(pc.utf8_upper(to_arrow(uniques)))
     raw = tidy(pc.replace_substring_regex(raw, pattern=r"[.,]", replacement=" "))
@@ -71,8 +84,7 @@ def country_codes(country: pd.Series | str | None, n: int, default: str = "US") 
         strings(list(COUNTRY_ALIASES.values())),
         pc.index_in(raw, value_set=strings(list(COUNTRY_ALIASES))),
     )
-    value = pc.fill_null(pc.coalesce(mapped, raw), _country_value(default))
-    return gather(value, codes)
+    return codes, pc.fill_null(pc.coalesce(mapped, raw), _country_value(default))
 
 
 def _country_value(text: str) -> str:
@@ -170,12 +182,11 @@ def normalise_postcodes(
     country, ``placeholder_postcode`` for fillers such as "N/A" or "00000".
     """
     n = len(raw)
-    countries = country_codes(country, n, default_country)
+    c_codes, c_values = country_codes(country, n, default_country)
     p_codes, p_values = distinct_codes(raw.astype("string"))
-    c_codes, c_values = distinct_codes(to_series(countries))
     codes, pa_idx, pc_idx = pair_codes(p_codes, c_codes)
     value, status = postcode_parts(
-        pc.take(to_arrow(p_values), pa.array(pa_idx)), pc.take(to_arrow(c_values), pa.array(pc_idx))
+        pc.take(to_arrow(p_values), pa.array(pa_idx)), pc.take(c_values, pa.array(pc_idx))
     )
     rec_status = status[codes]
     reasons = np.array([None, None, "bad_postcode", "placeholder_postcode"], dtype=object)

@@ -155,16 +155,25 @@ def _prepare(values: pa.Array) -> pa.Array:
     return blank_to_null(pc.replace_with_mask(s, odd, t.cast(s.type)))
 
 
-def _unit_label(designator: pa.Array, ident: pa.Array, terms, standards) -> tuple[pa.Array, pa.Array]:
+def _unit_label(
+    designator: pa.Array, ident: pa.Array, terms: pa.Array, standards: pa.Array
+) -> tuple[pa.Array, pa.Array]:
     """(unit, as shown): "4b" and "#4b" for a generic designator (apt, unit, flat, suite, #);
-    "bldg 2" or "rear" for the others, shown the same."""
-    std = pc.take(standards, pc.index_in(designator, value_set=terms))
+    "bldg 2" or "rear" for the others, shown the same. Null where there is no unit."""
+    n = len(ident)
+    some = pc.or_(pc.is_valid(designator), pc.is_valid(ident))
+    if not pc.any(some).as_py():
+        return pa.nulls(n, STRING), pa.nulls(n, STRING)
+    des, ident = pc.filter(designator, some), pc.filter(ident, some)
+    std = pc.take(standards, pc.index_in(des, value_set=terms))
     generic = pc.or_(pc.is_null(std), pc.is_in(std, value_set=strings(sorted(GENERIC_UNITS))))
     with_des = pc.binary_join_element_wise(std, ident, pa.scalar(" ", STRING))
     labelled = pc.coalesce(with_des, std, ident)
     label = pc.if_else(generic, ident, labelled)
     hashed = pc.binary_join_element_wise(pa.scalar("#", STRING), ident, pa.scalar("", STRING))
-    return label, pc.if_else(generic, hashed, labelled)
+    shown = pc.if_else(generic, hashed, labelled)
+    empty = pa.nulls(n, STRING)
+    return pc.replace_with_mask(empty, some, label), pc.replace_with_mask(empty, some, shown)
 
 
 _SIMPLE = (
@@ -187,7 +196,7 @@ def parse_streets(values: pa.Array, countries: pa.Array) -> dict:
     go through every rule.
     """
     s = _prepare(values)
-    simple = extract_where(s, _SIMPLE)
+    simple = extract_where(s, _SIMPLE, most=True)
     terms, _, numbered, _ = _unit_terms()
     known_unit = pc.or_kleene(pc.is_null(simple["des"]),
                               pc.is_in(simple["des"], value_set=strings(numbered.split("|"))))
@@ -366,8 +375,9 @@ def _parse_full(s: pa.Array, countries: pa.Array) -> dict:
     house = pc.coalesce(house, number["num"])
     rest = replace_where(line, _NUMBER, _NUMBER, "")
     rest = blank_to_null(pc.utf8_trim_whitespace(rest))
-    last_here = pc.invert(pc.fill_null(pc.is_in(countries, value_set=strings(list(NUMBER_FIRST))), False))
-    last = extract_where(pc.if_else(pc.and_(last_here, pc.is_null(house)), rest, null), _NUMBER_LAST)
+    number_first = pc.is_in(countries, value_set=strings(list(NUMBER_FIRST)))
+    last_here = pc.and_(pc.invert(pc.fill_null(number_first, False)), pc.is_null(house))
+    last = extract_where(pc.if_else(last_here, rest, null), _NUMBER_LAST)
     house = pc.coalesce(house, last["num"], house_name)
     rest = pc.coalesce(last["rest"], rest)
     rest = tidy(replace_where(rest, r"[#/\-]", r"[#/\-]+", " "))
@@ -390,7 +400,9 @@ def _parse_full(s: pa.Array, countries: pa.Array) -> dict:
     present_np = present.to_numpy(zero_copy_only=False)
     state[~present_np] = ABSENT
 
-    key = pc.binary_join_element_wise(house, street_name, pc.fill_null(unit, ""), pa.scalar("|", STRING))
+    key = pc.binary_join_element_wise(
+        house, street_name, pc.fill_null(unit, ""), pa.scalar("|", STRING)
+    )
     house_street = pc.binary_join_element_wise(house, street_name, pa.scalar(" ", STRING),
                                                null_handling="replace", null_replacement="")
     line_out = tidy(pc.binary_join_element_wise(house_street, unit_text, pa.scalar(" ", STRING),

@@ -86,19 +86,32 @@ def replace_where(arr: pa.Array, gate: str, pattern: str, replacement: str) -> p
     hit = pc.fill_null(pc.match_substring_regex(arr, pattern=gate), False)
     if not pc.any(hit).as_py():
         return arr
-    fixed = pc.replace_substring_regex(pc.filter(arr, hit), pattern=pattern, replacement=replacement)
+    fixed = pc.replace_substring_regex(
+        pc.filter(arr, hit), pattern=pattern, replacement=replacement
+    )
     return pc.replace_with_mask(arr, hit, fixed.cast(arr.type))
 
 
-def extract_where(arr: pa.Array, pattern: str, gate: str | None = None) -> dict[str, pa.Array]:
+def extract_where(
+    arr: pa.Array, pattern: str, gate: str | None = None, *, most: bool = False
+) -> dict[str, pa.Array]:
     """Named groups of ``pattern`` (null where it does not match) plus ``_hit`` (bool).
 
     The capture-free match (``gate``, default the pattern itself) decides which values are
-    worth the slower extraction; only those are extracted. Empty groups come back as null.
+    worth the slower extraction; only those are extracted. With ``most`` (when most values
+    are expected to match) the gate is skipped. Empty groups come back as null.
     """
     n = len(arr)
+    names = _group_names(pattern)
+    if most:
+        found = pc.extract_regex(arr, pattern=pattern)
+        out = {
+            name: blank_to_null(pc.struct_field(found, [i]).cast(STRING))
+            for i, name in enumerate(names)
+        }
+        out["_hit"] = pc.fill_null(pc.is_valid(found), False)
+        return out
     hit = pc.fill_null(pc.match_substring_regex(arr, pattern=gate or pattern), False)
-    names = [name for name in _group_names(pattern)]
     out = {name: pa.nulls(n, STRING) for name in names}
     if pc.any(hit).as_py():
         found = pc.extract_regex(pc.filter(arr, hit), pattern=pattern)
@@ -106,7 +119,9 @@ def extract_where(arr: pa.Array, pattern: str, gate: str | None = None) -> dict[
         hit = pc.replace_with_mask(hit, hit, ok)
         for i, name in enumerate(names):
             field = blank_to_null(pc.struct_field(found, [i]).cast(STRING))
-            out[name] = pc.replace_with_mask(out[name], pc.fill_null(hit, False), pc.filter(field, ok))
+            out[name] = pc.replace_with_mask(
+                out[name], pc.fill_null(hit, False), pc.filter(field, ok)
+            )
     out["_hit"] = hit
     return out
 
@@ -214,5 +229,8 @@ def distinct_codes(values: pd.Series) -> tuple[np.ndarray, pd.Series]:
 
 def gather(arr: pa.Array, codes: np.ndarray) -> pa.Array:
     """``arr[codes]`` with Arrow take; a code equal to ``len(arr)`` gives null."""
-    padded = pa.concat_arrays([arr, pa.nulls(1, arr.type)])
-    return pc.take(padded, pa.array(codes, pa.int64()))
+    codes = np.asarray(codes, dtype=np.int64)
+    beyond = codes >= len(arr)
+    if beyond.any():
+        return pc.take(arr, pa.array(np.where(beyond, 0, codes), mask=beyond))
+    return pc.take(arr, pa.array(codes))
