@@ -536,7 +536,7 @@ def test_mask_identifier():
     assert mask_identifier("123") == "123"
 
 
-# ----- the pair worked through by hand in docs/parts/matching-scoring.md, section 6 ---------
+# ----- the pair worked through by hand in docs/matching.md, section 6 ---------
 
 
 def worked_example():
