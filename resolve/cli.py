@@ -278,7 +278,10 @@ def review(project, reviewer):
     Project.open(project)
     from tui.app import make_app
 
-    make_app(project, reviewer=reviewer).run()
+    app = make_app(project, reviewer=reviewer)
+    app.run()
+    if app.return_code:
+        sys.exit(int(app.return_code))
 
 
 import resolve.cli_review  # noqa: E402,F401  (registers export, queue, decide, status, audit, reveal)

@@ -1,0 +1,1 @@
+"""One screen per module: work list, cluster view, thresholds, key list and dialogs."""
