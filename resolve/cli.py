@@ -246,7 +246,7 @@ def evaluate(project, truth, as_json, min_severity):
 def explain(project, record_a, record_b, as_json):
     """Field-by-field evidence for one pair of records (RECORD_A RECORD_B are record IDs).
 
-    Shows each field's comparison level, the values on both sides (national IDs masked),
+    Shows each field's agreement level, the values on both sides (national IDs masked),
     m, u and the match weight, then the prior, total weight and probability.
 
     \b

@@ -1,4 +1,4 @@
-"""Tests for resolve.compare: string-similarity check values, every comparison level, invariants.
+"""Tests for resolve.compare: string-similarity check values, every agreement level, invariants.
 
 The people and identifier frames are small and hand-made in the shape of the contract in
 docs/architecture.md; names and numbers are invented.

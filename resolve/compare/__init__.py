@@ -1,4 +1,4 @@
-"""Per-field comparison levels for candidate record pairs.
+"""Per-field agreement levels for candidate record pairs.
 
 `compare_pairs` turns candidate pairs into one small integer per field (`lvl_<field>`),
 following the level catalogue in `resolve.compare.levels`: 0 missing, 1 different, higher
@@ -45,7 +45,7 @@ def compare_pairs(
     identifiers: pd.DataFrame | None = None,
     settings: CompareSettings | Mapping[str, Any] | None = None,
 ) -> pd.DataFrame:
-    """Add one int8 comparison-level column per field to the candidate pairs.
+    """Add one int8 agreement-level column per field to the candidate pairs.
 
     ``pairs`` holds ``rec_a`` < ``rec_b`` (and any other columns, passed through, such as the
     blocking ``keys``). ``people`` is the normalised people table, or a `PreparedRecords` to

@@ -1,4 +1,4 @@
-"""Comparison levels for postal addresses, from the normalised address columns.
+"""Agreement levels for postal addresses, from the normalised address columns.
 
 Exact agreement uses the `address_key` built by `resolve.normalise.address`. Below it, the
 same house number in the same postcode catches a street written two ways, and a similar

@@ -1,4 +1,4 @@
-"""Comparison levels for birth dates, from the year, month and day columns.
+"""Agreement levels for birth dates, from the year, month and day columns.
 
 Birth dates are typed by hand on most onboarding forms, so the near misses people make get
 their own levels: day and month swapped (the US and European orders confused), a year off by

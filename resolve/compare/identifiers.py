@@ -1,4 +1,4 @@
-"""Comparison levels for multi-valued identifiers: phones, emails and national IDs.
+"""Agreement levels for multi-valued identifiers: phones, emails and national IDs.
 
 A record can carry several values of one kind (one per mapped column: mobile, home phone,
 work phone). For each kind the usable identifier rows are laid out as a small matrix, one

@@ -1,4 +1,4 @@
-"""The catalogue of comparison levels: what each `lvl_<field>` number means.
+"""The catalogue of agreement levels: what each `lvl_<field>` number means.
 
 Every compared field gets a small integer level per candidate pair. The numbering rule is the
 same for all fields:
@@ -29,7 +29,7 @@ DIFFERENT = 1
 
 @dataclass(frozen=True)
 class Level:
-    """One comparison level of one field."""
+    """One agreement level of one field."""
 
     code: int
     name: str

@@ -1,4 +1,4 @@
-"""Comparison levels for given names, family names and generation suffixes.
+"""Agreement levels for given names, family names and generation suffixes.
 
 Names are compared on the normalised keys (`given_key`, `family_key`) produced by
 `resolve.normalise.names`. Exact and structural checks (same key, same name root, compound

@@ -1,6 +1,6 @@
 """The match model: m and u probabilities per field level, the prior, and the thresholds.
 
-A `MatchModel` is everything needed to turn comparison levels into match weights. It saves
+A `MatchModel` is everything needed to turn agreement levels into match weights. It saves
 as plain JSON that a person can read and edit (field -> levels -> m, u, label), so a model
 fitted on one extract can be reviewed, adjusted and reused on the next without refitting.
 
@@ -63,7 +63,7 @@ def probability_to_weight(p: float) -> float:
 
 @dataclass
 class LevelParams:
-    """m and u of one comparison level (neutral levels have neither: weight 0)."""
+    """m and u of one agreement level (neutral levels have neither: weight 0)."""
 
     code: int
     name: str

@@ -1,4 +1,4 @@
-"""Turn comparison levels into match weights and match probabilities.
+"""Turn agreement levels into match weights and match probabilities.
 
 Each field's level is looked up in the model's weight table (log2(m/u)); exact-agreement
 levels of fields with term-frequency adjustment get log2(ū / f) added, f being the agreed
