@@ -18,6 +18,7 @@ from rapidfuzz import process
 from rapidfuzz.distance import OSA, JaroWinkler, Levenshtein
 
 from resolve.errors import InputError
+from resolve.settings_util import coerce_settings
 
 #: Phone number types whose sharing is weak evidence: lines shared by a household, an office
 #: or a service (matched after lower-casing and turning spaces and hyphens into underscores).
@@ -58,19 +59,7 @@ class CompareSettings:
     @classmethod
     def coerce(cls, settings: "CompareSettings | Mapping[str, Any] | None") -> "CompareSettings":
         """Accept None (defaults), a CompareSettings, or a mapping of field names to values."""
-        if settings is None:
-            return cls()
-        if isinstance(settings, cls):
-            return settings
-        known = {f.name for f in fields(cls)}
-        unknown = sorted(set(settings) - known)
-        if unknown:
-            raise InputError(
-                f"Unknown comparison setting(s) {', '.join(unknown)}; "
-                f"use only {', '.join(sorted(known))}."
-            )
-        values = {k: (tuple(v) if isinstance(v, list) else v) for k, v in settings.items()}
-        return cls(**values)
+        return coerce_settings(cls, settings, "comparison")
 
 
 def record_positions(people: pd.DataFrame) -> pd.DataFrame:

@@ -28,6 +28,7 @@ from resolve.compare import prepare_records
 from resolve.compare.align import pair_arrays
 from resolve.compare.levels import DIFFERENT, FieldSpec
 from resolve.errors import InputError
+from resolve.settings_util import coerce_settings
 from resolve.scoring.em import lift_to_floor, run_em
 from resolve.scoring.model import FieldModel, LevelParams, MatchModel, Thresholds
 from resolve.scoring.score import score_pairs
@@ -62,19 +63,7 @@ class ScoringSettings:
     @classmethod
     def coerce(cls, settings: "ScoringSettings | Mapping[str, Any] | None") -> "ScoringSettings":
         """Accept None (defaults), a ScoringSettings, or a mapping of field names to values."""
-        if settings is None:
-            return cls()
-        if isinstance(settings, cls):
-            return settings
-        known = {f.name for f in fields(cls)}
-        unknown = sorted(set(settings) - known)
-        if unknown:
-            raise InputError(
-                f"Unknown scoring setting(s) {', '.join(unknown)}; "
-                f"use only {', '.join(sorted(known))}."
-            )
-        values = {k: (tuple(v) if isinstance(v, list) else v) for k, v in settings.items()}
-        out = cls(**values)
+        out = coerce_settings(cls, settings, "scoring")
         bad = sorted(set(out.fields) - set(FIELD_BY_NAME))
         if bad:
             raise InputError(f"Unknown field(s) {', '.join(bad)} in the scoring settings.")
