@@ -9,7 +9,7 @@ once per distinct pair of values, never once per pair of records.
 
 from __future__ import annotations
 
-from dataclasses import dataclass, fields
+from dataclasses import dataclass
 from typing import Any, Callable, Mapping
 
 import numpy as np
