@@ -13,7 +13,7 @@ from __future__ import annotations
 
 import pandas as pd
 
-from resolve.signals import identity, record, sharing
+from resolve.signals import associates, id_checks, identity, record, sharing
 from resolve.signals.context import prepare
 from resolve.signals.rules import SEVERITIES, load_rules, merge_rules
 
@@ -22,16 +22,21 @@ SCOPES = ("record", "entity", "group")
 
 RULES = {
     "shared_national_id_conflict": identity.shared_id_conflict,
+    "shared_national_id_likely_holder": identity.likely_holder,
     "several_national_ids": identity.several_ids,
-    "national_id_never_issued": identity.never_issued,
-    "national_id_known_misused": identity.known_misused,
-    "national_id_invalid": identity.invalid,
+    "several_national_ids_merge_doubt": identity.several_ids_merge_doubt,
+    "national_id_never_issued": id_checks.never_issued,
+    "national_id_known_misused": id_checks.known_misused,
+    "national_id_invalid": id_checks.invalid,
     "placeholder_identifier": sharing.placeholder,
     "identifier_hub": sharing.hub,
     "ring_pattern": sharing.ring,
     "implausible_age": record.implausible_age,
     "burst_shared_identifier": sharing.burst,
     "unusual_phone_type": record.unusual_phone_type,
+}
+FOLLOW_UP_RULES = {  # rules that read the flags of the rules above
+    "linked_to_flagged_entity": associates.linked_to_flagged,
 }
 
 
@@ -48,15 +53,18 @@ def compute_signals(
 
     Columns: record_id, flag (rule code), severity (low/medium/high), reason (one sentence,
     national IDs and phones masked to their last four characters), scope (record, entity or
-    group), entity_id (as given in ``entities``) and group_id (run-local label, or the given
-    group_id for rings found in ``groups``; blank for record and entity flags).
+    group), entity_id (as given in ``entities``) and group_id (a run-local label such as
+    ``shared-id-00001``, or for a ring lying inside one identity-sharing group of ``groups``
+    that group's group_id; blank for record and entity flags).
 
     ``rules`` is a dict shaped like the rule file (any subset; it is applied over the packaged
-    defaults) or the result of `load_rules`. ``today`` (date, string or Timestamp) is the
+    defaults) or the result of `load_rules`. Rules in `FOLLOW_UP_RULES` run last and read
+    the flags of the others. ``today`` (date, string or Timestamp) is the
     reference date for ages of records with no creation date; pass it for repeatable output.
     """
     table = merge_rules(rules) if rules is not None else load_rules()
     inp = prepare(people, identifiers, entities, links, groups, today)
+    inp.rules = table
     found = []
     for code in RULES:
         rule = table[code]
@@ -65,6 +73,14 @@ def compute_signals(
         out = RULES[code](inp, rule["parameters"])
         if len(out):
             found.append(out.assign(flag=code, severity=rule["severity"]))
+    first_pass = pd.concat(found, ignore_index=True) if found else pd.DataFrame(
+        {"rec": pd.Series(dtype="int64"), "flag": pd.Series(dtype="string"), "severity": pd.Series(dtype="string")})
+    for code, follow_up in FOLLOW_UP_RULES.items():
+        rule = table[code]
+        if rule["enabled"]:
+            out = follow_up(inp, rule["parameters"], first_pass)
+            if len(out):
+                found.append(out.assign(flag=code, severity=rule["severity"]))
     if not found:
         return _empty(inp.records)
     flags = pd.concat(found, ignore_index=True)
@@ -85,4 +101,5 @@ def _empty(records: pd.DataFrame) -> pd.DataFrame:
     return out
 
 
-__all__ = ["COLUMNS", "RULES", "SCOPES", "SEVERITIES", "compute_signals", "load_rules", "merge_rules"]
+__all__ = ["COLUMNS", "FOLLOW_UP_RULES", "RULES", "SCOPES", "SEVERITIES", "compute_signals", "load_rules",
+           "merge_rules"]

@@ -9,7 +9,7 @@ and their identifiers are grouped with integer sorts rather than string hashing 
 
 from __future__ import annotations
 
-from dataclasses import dataclass
+from dataclasses import dataclass, field
 
 import numpy as np
 import pandas as pd
@@ -30,6 +30,8 @@ class Inputs:
     that is shared), kind, status, reason, detail (categoricals), created_at.
     ``values``: the identifier values as text, for sentences only.
     ``links``/``groups``: as given, or None. ``today``: a normalised Timestamp.
+    ``rules``: the whole rule table of the run (rules that depend on another rule's settings
+    read it). ``cache``: work shared between rules within one run.
     """
 
     records: pd.DataFrame
@@ -38,6 +40,12 @@ class Inputs:
     links: pd.DataFrame | None
     groups: pd.DataFrame | None
     today: pd.Timestamp
+    rules: dict = field(default_factory=dict)
+    cache: dict = field(default_factory=dict)
+
+    def texts(self, rows) -> np.ndarray:
+        """The identifier values at positions ``rows`` (of ``values``) as an object array, "" when missing."""
+        return self.values.iloc[np.asarray(rows, dtype=np.int64)].to_numpy(dtype=object, na_value="")
 
     def describe(self, rows: pd.DataFrame) -> pd.Series:
         """Masked names of the identifiers on ``rows`` (a slice of ``ids``), aligned to them."""
@@ -58,6 +66,19 @@ def _string(frame: pd.DataFrame, column: str) -> pd.Series:
         return pd.Series(pd.NA, index=frame.index, dtype="string")
     s = frame[column].astype("string").str.strip()
     return s.mask(s == "")
+
+
+def _category(frame: pd.DataFrame, column: str) -> pd.Categorical:
+    """A low-cardinality text column (kind, status, reason, type) as a categorical, stripped
+    and with blanks as missing, cleaned once per distinct value."""
+    if column not in frame.columns:
+        return pd.Categorical([pd.NA] * len(frame), categories=pd.Index([], dtype="string"))
+    codes, uniques = pd.factorize(frame[column], use_na_sentinel=True)
+    clean = pd.Series(uniques, dtype="string").str.strip()
+    clean = clean.mask(clean == "")
+    again, categories = pd.factorize(clean, use_na_sentinel=True)
+    final = np.where(codes >= 0, np.append(again, -1)[codes], -1)
+    return pd.Categorical.from_codes(final, categories=pd.Index(categories, dtype="string"))
 
 
 def _check_columns(name: str, frame: pd.DataFrame, columns: tuple[str, ...]) -> None:
@@ -106,9 +127,9 @@ def prepare(people, identifiers, entities, links, groups, today) -> Inputs:
     pos = pos[known]
     value = _string(idf, "value").reset_index(drop=True)
     key = _string(idf, "key").reset_index(drop=True)
-    kind = _string(idf, "kind").astype("category").reset_index(drop=True)
+    kind = _category(idf, "kind")
     key_code = pd.factorize(key.fillna(value))[0].astype(np.int64)  # the value shared
-    wide = np.where(key_code >= 0, key_code * (len(kind.cat.categories) + 1) + kind.cat.codes.to_numpy(), -1)
+    wide = np.where(key_code >= 0, key_code * (len(kind.categories) + 1) + kind.codes, -1)
     kid = np.full(len(wide), -1, dtype=np.int64)
     kid[wide >= 0] = pd.factorize(wide[wide >= 0])[0]
     ids = pd.DataFrame({
@@ -116,10 +137,10 @@ def prepare(people, identifiers, entities, links, groups, today) -> Inputs:
         "rec": rec[pos],
         "ent": codes[pos],
         "kid": kid,
-        "kind": kind.array,
-        "status": _string(idf, "status").astype("category").array,
-        "reason": _string(idf, "reason").astype("category").array,
-        "detail": _string(idf, "detail").astype("category").array,
+        "kind": kind,
+        "status": _category(idf, "status"),
+        "reason": _category(idf, "reason"),
+        "detail": _category(idf, "detail"),
         "created_at": records["created_at"].to_numpy()[pos],
     })
     stamp = pd.Timestamp.today() if today is None else pd.Timestamp(today)
@@ -133,7 +154,8 @@ def describe(kind: pd.Series, value: pd.Series) -> pd.Series:
 
     National IDs and phones show their last four characters only ("National ID ending 4399");
     e-mail addresses show the first character of the mailbox and the domain ("Email
-    j***@example.com"); addresses show their value. Showing only the last four digits of a
+    j***@example.com"); addresses show house, street, unit and postcode ("Address 12 elm st,
+    10001"), which a reviewer needs to judge whether people live together. Showing only the last four digits of a
     national ID is common practice in KYC tools.
     """
     kind = kind.astype("string")
@@ -144,7 +166,26 @@ def describe(kind: pd.Series, value: pd.Series) -> pd.Series:
     parts = value.str.extract(r"^(?P<local>[^@]*)@(?P<domain>.*)$")
     email = label + " " + parts["local"].str[:1] + "***@" + parts["domain"]
     out = tail.where(kind.isin(["national_id", "phone"]), label + " " + value)
+    out = out.where(kind != "address", label + " " + readable_address(value))
     return out.where(kind != "email", email.fillna(label + " (unreadable)"))
+
+
+def readable_address(value: pd.Series) -> pd.Series:
+    """An address key (``house|street|unit|postcode|country``) as text: "12 elm st, unit 4, 10001".
+
+    Values not in that shape are returned as they are.
+    """
+    value = value.astype("string")
+    parts = value.str.split("|", n=4, expand=True, regex=False)
+    if parts.shape[1] < 5:
+        return value
+    part = [parts[i].fillna("").str.strip() for i in range(5)]
+    street = (part[0] + " " + part[1]).str.strip()
+    unit = pd.Series(np.where(part[2] != "", ", unit " + part[2], ""), index=value.index, dtype="string")
+    post = pd.Series(np.where(part[3] != "", ", " + part[3], ""), index=value.index, dtype="string")
+    text = (street + unit + post).str.strip(", ")
+    shaped = value.str.count(r"\|").eq(4).fillna(False)
+    return text.where(shaped, value)
 
 
 def entities_per_value(rows: pd.DataFrame) -> np.ndarray:

@@ -3,18 +3,17 @@
 Fabricated identities are often supported by a small pool of phones and emails reused across
 many applications, opened close together (Federal Reserve synthetic identity material; see
 docs/signals.md). Households share values too, so these rules count distinct entities (not
-records), leave placeholders out of every count, and let household links or groups explain a
-sharing before it is called a ring.
+records) and family names, leave placeholders out of every count, and let a family name, one
+unmerged person or one home explain a sharing before it is called a ring (`contacts`).
 """
 
 from __future__ import annotations
 
 import numpy as np
 import pandas as pd
-from scipy.sparse import coo_matrix
-from scipy.sparse.csgraph import connected_components
 
-from resolve.signals.context import Inputs, entities_per_value, entity_pairs, hits, number_groups, plural
+from resolve.signals.contacts import main_family, ring_sets
+from resolve.signals.context import Inputs, entities_per_value, hits, number_groups, plural
 
 KIND_PLURALS = {"phone": ("phone", "phones"), "email": ("email", "emails"),
                 "national_id": ("national ID", "national IDs"), "address": ("address", "addresses")}
@@ -38,134 +37,103 @@ def placeholder(inp: Inputs, params: dict) -> pd.DataFrame:
     return hits(ids["rec"], reason, "record")
 
 
+def _family_units(inp: Inputs, rows: pd.DataFrame) -> pd.Series:
+    """Per row (with ``ent``): the entity's main family name code, or a code of its own
+    (negative) when it has none, so that counting distinct units counts family names."""
+    ent = rows["ent"].to_numpy()
+    family = main_family(inp).to_numpy()[ent]
+    return pd.Series(np.where(family >= 0, family, -2 - ent), index=rows.index)
+
+
 def hub(inp: Inputs, params: dict) -> pd.DataFrame:
-    """Records carrying a value held by more distinct entities than the kind's limit."""
+    """Records carrying a value held by more distinct entities than the kind's limit.
+
+    With ``count_family_names`` the count is of different family names among the carrying
+    entities (an entity with no family name counts as one of its own), so that one household
+    whose members were not all merged into single entities is not taken for a hub.
+    """
     ids = _shared(inp, params)
     n = entities_per_value(ids)
     limit = np.full(len(ids), int(params["max_entities"]), dtype=np.int64)
     for kind, value in params["max_entities_by_kind"].items():
         limit[(ids["kind"] == kind).to_numpy()] = int(value)
-    over = n > limit
+    ids, n, limit = ids[n > limit], n[n > limit], limit[n > limit]  # family names never outnumber entities
+    by_name = bool(params["count_family_names"])
+    count = n
+    if by_name and len(ids):
+        held = ids[["kid", "ent"]].drop_duplicates()
+        names = pd.DataFrame({"kid": held["kid"].to_numpy(), "unit": _family_units(inp, held).to_numpy()})
+        names = names.drop_duplicates()
+        per_value = names.groupby("kid").size()
+        count = per_value.reindex(ids["kid"].to_numpy()).to_numpy(dtype=np.int64)
+    over = count > limit
     flagged = ids[over]
     n, limit = pd.Series(n[over], index=flagged.index), pd.Series(limit[over], index=flagged.index)
-    reason = (
-        inp.describe(flagged) + " is carried by " + plural(n, "entity", "entities")
-        + ", more than the limit of " + limit.astype("string") + "."
-    )
+    names = pd.Series(np.asarray(count)[over], index=flagged.index)
+    carried = inp.describe(flagged) + " is carried by " + plural(n, "entity", "entities")
+    if by_name:
+        carried = carried + " with " + plural(names, "family name", "different family names")
+    reason = carried + ", more than the limit of " + limit.astype("string") + "."
     return hits(flagged["rec"], reason, "group", number_groups(flagged["kid"], "hub"))
 
 
-def _same_value(pairs: pd.DataFrame, holders: pd.DataFrame) -> np.ndarray:
-    """For each entity pair, whether both entities hold a common value in ``holders`` (ent, v)."""
-    holders = holders.drop_duplicates()
-    both = pairs[["ent_a", "ent_b"]].drop_duplicates()
-    both = both.merge(holders.rename(columns={"ent": "ent_a"}), on="ent_a")
-    both = both.merge(holders.rename(columns={"ent": "ent_b"}), on=["ent_b", "v"])
-    hit = both[["ent_a", "ent_b"]].drop_duplicates().assign(hit=True)
-    return pairs.merge(hit, on=["ent_a", "ent_b"], how="left")["hit"].fillna(False).to_numpy(dtype=bool)
-
-
-def _household_explained(inp: Inputs, params: dict, pairs: pd.DataFrame) -> np.ndarray:
-    """For each entity pair (ent_a < ent_b), whether a household explains their sharing.
-
-    A household link between any of their records always explains it; so, when enabled, do a
-    shared valid address (one held by at most ``max_entities_per_value`` entities) and a
-    shared family name.
-    """
-    explained = np.zeros(len(pairs), dtype=bool)
-    links = inp.links
-    if links is not None and len(links) and "link_type" in links.columns:
-        home = links[links["link_type"] == "household"]
-        rec_ent = pd.Series(inp.records["ent"].to_numpy(), index=inp.records["rec"].to_numpy())
-        a = rec_ent.reindex(home["rec_a"].to_numpy()).to_numpy()
-        b = rec_ent.reindex(home["rec_b"].to_numpy()).to_numpy()
-        linked = pd.DataFrame({"lo": np.fmin(a, b), "hi": np.fmax(a, b)}).dropna().astype(np.int64)
-        linked = linked.rename(columns={"lo": "ent_a", "hi": "ent_b"}).drop_duplicates().assign(hit=True)
-        explained |= pairs.merge(linked, on=["ent_a", "ent_b"], how="left")["hit"].fillna(False).to_numpy(dtype=bool)
-    if params["shared_address_explains"]:
-        addr = inp.ids[(inp.ids["kind"] == "address") & (inp.ids["status"] == "valid") & (inp.ids["kid"] >= 0)]
-        addr = addr[entities_per_value(addr) <= params["max_entities_per_value"]]
-        explained |= _same_value(pairs, addr[["ent", "kid"]].rename(columns={"kid": "v"}))
-    if params["shared_family_name_explains"]:
-        family = inp.records.loc[inp.records["family"] >= 0, ["ent", "family"]]
-        explained |= _same_value(pairs, family.rename(columns={"family": "v"}))
-    return explained
-
-
-def _group_members(inp: Inputs, groups: pd.DataFrame) -> pd.DataFrame:
-    """Groups given by entity_id, as (group_id, ent) using this run's entity codes."""
-    codes = inp.records[["entity_id", "ent"]].dropna().drop_duplicates("entity_id")
+def _set_labels(inp: Inputs, members: pd.DataFrame, fallback: pd.Series, prefix: str) -> pd.Series:
+    """Label per member row: the identity-sharing group from the cluster stage when every
+    member of the set lies in one such group and no other set does, else a run-local
+    ``prefix-00001`` label."""
+    local = number_groups(fallback, prefix)
+    groups = inp.groups
+    if groups is None or len(groups) == 0 or not {"entity_id", "group_id"} <= set(groups.columns):
+        return local
+    codes = inp.records[["entity_id", "ent"]].dropna().drop_duplicates("ent")
     codes = codes.assign(entity_id=codes["entity_id"].astype("string"))
-    given = groups[["entity_id", "group_id"]].astype({"entity_id": "string"})
-    members = given.merge(codes, on="entity_id")
-    return members[["group_id", "ent"]].astype({"group_id": "string"}).drop_duplicates()
+    given = groups[["entity_id", "group_id"]].astype({"entity_id": "string", "group_id": "string"})
+    given = given.drop_duplicates("entity_id").merge(codes, on="entity_id")
+    group = members[["set", "ent"]].merge(given[["ent", "group_id"]], on="ent", how="left")
+    per_set = group.groupby("set")["group_id"].agg(["nunique", "count", "first"])
+    whole = per_set[(per_set["nunique"] == 1) & (per_set["count"] == members.groupby("set")["ent"].size()
+                                                 .reindex(per_set.index))]["first"]
+    whole = whole[whole.map(whole.value_counts()) == 1]  # two rings in one group keep their own labels
+    chosen = members["set"].map(whole).astype("string")
+    return chosen.fillna(local)
 
 
 def ring(inp: Inputs, params: dict) -> pd.DataFrame:
-    """Records of entities in a set of ``min_entities``+ entities sharing ``min_shared_values``+ values.
+    """Records of a set of ``min_entities``+ entities, with ``min_family_names``+ different
+    family names, sharing ``min_shared_values``+ contact values that no household explains.
 
-    With identity-sharing groups given, each group of a kind in ``group_kinds`` (every group
-    when that list is empty) is a candidate set, and the cluster stage has already set
-    households aside. Otherwise the sets are the connected components of entities joined by
-    a shared value (values held by more than ``max_entities_per_value`` entities left out),
-    after removing the joins a household explains.
+    The sets are found by `contacts.ring_sets`; this rule words them.
     """
-    ids = _shared(inp, params)
-    size = entities_per_value(ids)
-    incidence = ids.loc[(size >= 2) & (size <= params["max_entities_per_value"]), ["kid", "kind", "ent"]]
-    incidence = incidence.drop_duplicates()
-    groups = inp.groups
-    from_groups = groups is not None and len(groups) > 0
-    if from_groups:
-        if params["group_kinds"] and "group_kind" in groups.columns:
-            groups = groups[groups["group_kind"].isin(params["group_kinds"])]
-        members = _group_members(inp, groups)
-        members = members.rename(columns={"group_id": "set"})
-        values = incidence.merge(members, on="ent")
-    else:
-        pairs = entity_pairs(incidence)
-        pairs = pairs[~_household_explained(inp, params, pairs)]
-        n = int(inp.records["ent"].max()) + 1 if len(inp.records) else 0
-        graph = coo_matrix((np.ones(len(pairs), dtype=np.int8), (pairs["ent_a"], pairs["ent_b"])), shape=(n, n))
-        labels = connected_components(graph.tocsr(), directed=False)[1]
-        pairs = pairs.assign(set=labels[pairs["ent_a"].to_numpy()])
-        values = pd.concat([
-            pairs[["kid", "set", "ent_a"]].rename(columns={"ent_a": "ent"}),
-            pairs[["kid", "set", "ent_b"]].rename(columns={"ent_b": "ent"}),
-        ]).drop_duplicates().merge(incidence[["kid", "kind"]].drop_duplicates(), on="kid")
-        members = values[["set", "ent"]].drop_duplicates()
-    values = values.assign(kind=values["kind"].astype("string"))
-    shared = values.groupby(["set", "kid", "kind"])["ent"].nunique().reset_index()
-    shared = shared[shared["ent"] >= 2]
-    per_kind = shared.groupby(["set", "kind"]).size().unstack(fill_value=0)
-    size = members.groupby("set")["ent"].nunique()
-    total = per_kind.sum(axis=1).reindex(size.index, fill_value=0)
-    rings = size[(size >= params["min_entities"]) & (total >= params["min_shared_values"])].index
+    members, size, names, per_kind = ring_sets(inp, params)
+    rings = size.index
     if len(rings) == 0:
         return hits([], [], "group")
 
     words = pd.Series("", index=rings, dtype="string")
     for kind in sorted(per_kind.columns):
-        n = per_kind[kind].reindex(rings).astype("int64")
+        count = per_kind[kind].reindex(rings).astype("int64")
         one, many = KIND_PLURALS.get(kind, (kind, kind + "s"))
-        piece = plural(n, one, many).where(n > 0, "")
+        piece = plural(count, one, many).where(count > 0, "")
         words = words.where(piece == "", words.where(words == "", words + ", ") + piece)
     words = words.str.replace(r", ([^,]*)$", r" and \1", regex=True)
     summary = pd.DataFrame({
         "set": rings,
         "entities": size.reindex(rings).to_numpy(),
+        "names": names.reindex(rings).to_numpy(),
         "values": words.to_numpy(),
     })
-    flagged = members[members["set"].isin(rings)].merge(summary, on="set")
-    flagged = flagged.merge(inp.records[["rec", "ent"]], on="ent")
+    ring_members = members
+    first_rec = inp.records.groupby("ent")["rec"].min()
+    order = ring_members.assign(r=first_rec.reindex(ring_members["ent"]).to_numpy()).groupby("set")["r"]
+    label = _set_labels(inp, ring_members, order.transform("min"), "ring")
+    ring_members = ring_members.assign(label=label.to_numpy())
+    flagged = ring_members.merge(summary, on="set").merge(inp.records[["rec", "ent"]], on="ent")
     reason = (
-        "This entity is one of " + flagged["entities"].astype("string") + " entities sharing "
-        + flagged["values"] + " with no household link between them."
+        "This entity is one of " + flagged["entities"].astype("string") + " entities with "
+        + flagged["names"].astype("string") + " different family names that share "
+        + flagged["values"] + " with no family name in common."
     )
-    label = flagged["set"] if from_groups else number_groups(
-        flagged.groupby("set")["rec"].transform("min"), "ring"
-    )
-    return hits(flagged["rec"], reason, "group", label)
+    return hits(flagged["rec"], reason, "group", flagged["label"])
 
 
 def burst(inp: Inputs, params: dict) -> pd.DataFrame:
@@ -174,6 +142,9 @@ def burst(inp: Inputs, params: dict) -> pd.DataFrame:
     For each value and entity the creation time is that of the entity's earliest record
     carrying the value. Entities are sorted by that time per value; every run of
     ``min_entities`` consecutive entities spanning at most the window marks its members.
+    The marked entities of a value must have ``min_family_names`` or more different family
+    names (a family opening accounts together is not a burst); an entity with no family name
+    counts as a name of its own.
     """
     k = int(params["min_entities"])
     ids = _shared(inp, params).dropna(subset=["created_at"])
@@ -192,13 +163,19 @@ def burst(inp: Inputs, params: dict) -> pd.DataFrame:
     np.add.at(mark, start[ok], 1)
     np.add.at(mark, end[ok] + 1, -1)
     first = first[np.cumsum(mark)[:m] > 0]
+    names = _family_units(inp, first)
+    first = first[names.groupby(first["kid"].to_numpy()).transform("nunique").to_numpy() >= params["min_family_names"]]
     if first.empty:
         return hits([], [], "group")
-    span = first.groupby("kid")["created_at"].agg(["min", "max", "size"]).reset_index()
+    names = pd.Series(_family_units(inp, first).to_numpy(), index=first.index)
+    span = first.groupby("kid")["created_at"].agg(["min", "max", "size"])
+    span["names"] = names.groupby(first["kid"].to_numpy()).nunique().reindex(span.index)
+    span = span.reset_index()
     flagged = ids.merge(first[["kid", "ent"]], on=["kid", "ent"]).merge(span, on="kid")
     reason = (
         inp.describe(flagged) + " is shared by "
-        + plural(flagged["size"], "entity", "entities") + " opened within "
+        + plural(flagged["size"], "entity", "entities") + " with "
+        + plural(flagged["names"], "family name", "different family names") + ", opened within "
         + str(int(params["window_days"])) + " days of one another (between "
         + flagged["min"].dt.strftime("%Y-%m-%d") + " and " + flagged["max"].dt.strftime("%Y-%m-%d") + ")."
     )
