@@ -112,8 +112,10 @@ def main(argv=None) -> int:
     from bench.extra import extra_benchmarks
 
     results["extra"] = extra_benchmarks(CACHE, args.seed)
-    for name, value in results["extra"].items():
-        print(_row(name, value))
+    for name, lines in results["extra"].items():
+        print(f"{name}:")
+        for line in lines:
+            print(f"  {line}")
     (HERE / "results.json").write_text(json.dumps(results, indent=2, default=str))
     print(f"wrote {HERE / 'results.json'}")
     return 0
