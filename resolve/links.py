@@ -60,6 +60,7 @@ REASONS = (
     "given_names_differ",
     "same_birth_date",
     "birth_dates_differ",
+    "opened_together",
 )
 _BIT = {code: 1 << i for i, code in enumerate(REASONS)}
 
@@ -81,6 +82,9 @@ class Thresholds:
 
     auto: float = 0.99
     review: float = 0.5
+    #: Records of different family names opened within this many days of each other that
+    #: share an address, phone or email but no landline are not taken for a household.
+    opened_together_days: int = 60
 
     def __post_init__(self) -> None:
         if not 0.0 <= self.review <= self.auto <= 1.0:
@@ -371,6 +375,17 @@ def drop_hub_sharing(
     return mask
 
 
+def _opened_together(a: np.ndarray, b: np.ndarray, people: pd.DataFrame, days: int) -> np.ndarray:
+    """Pairs whose two records were both created, within ``days`` of each other."""
+    if "created_at" not in people.columns or days <= 0 or len(a) == 0:
+        return np.zeros(len(a), dtype=bool)
+    created = pd.to_datetime(people["created_at"], errors="coerce").to_numpy("datetime64[D]")
+    ca, cb = created[a], created[b]
+    known = ~np.isnat(ca) & ~np.isnat(cb)
+    gap = np.abs((ca - cb).astype("timedelta64[D]").astype(np.int64))
+    return known & (gap <= days)
+
+
 def type_links(
     pairs: pd.DataFrame,
     people: pd.DataFrame,
@@ -387,7 +402,9 @@ def type_links(
     - ``household``: given names or birth dates disagree, and the pair shares an address or a
       landline, or shares a phone or an email while also having a family name in common;
     - ``shared_identity``: the pair shares a phone or an email with no household explanation
-      (no family name, address or landline in common);
+      (no family name, address or landline in common), or shares an address, phone or email
+      with different family names and no landline while both records were opened within
+      ``opened_together_days`` of each other (the pattern of a ring using a mail drop);
     - ``none``: anything else.
 
     Facts are read from the ``lvl_`` per-field levels when ``pairs`` has them all (hub values
@@ -418,8 +435,13 @@ def type_links(
     phone_or_email = has("shared_phone", "shared_email")
     home = has("same_address", "shared_landline")
     different_people = has("given_names_differ", "birth_dates_differ")
-    household = different_people & (home | (phone_or_email & same_family))
-    unexplained = phone_or_email & ~same_family & ~home
+    together = _opened_together(a, b, people, limits.opened_together_days)
+    mask = mask | _bits_where(together, "opened_together")
+    # Unrelated names sharing contact details, opened in a burst, is the pattern of a ring
+    # using a mail drop, not of a family: such pairs are shared identity, not household.
+    burst = together & ~same_family & ~has("shared_landline")
+    household = different_people & (home | (phone_or_email & same_family)) & ~burst
+    unexplained = (phone_or_email | (burst & home)) & ~same_family & (~home | burst)
     code = {name: i for i, name in enumerate(LINK_TYPES)}
     kind = np.select(
         [prob >= limits.auto, prob >= limits.review, has("shared_national_id"), household, unexplained],

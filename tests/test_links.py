@@ -11,7 +11,7 @@ from hypothesis import given, settings
 from hypothesis import strategies as st
 
 from resolve.clusters.example import THRESHOLDS, worked_example
-from resolve.compare.levels import PHONE
+from resolve.compare.levels import PHONE, field_spec
 from resolve.errors import InputError, ResolveError
 from resolve.links import (
     LINK_TYPES,
@@ -215,3 +215,31 @@ def test_type_links_total_and_deterministic(probs, data):
     pd.testing.assert_frame_equal(first, again)
     auto = np.asarray(probs) >= THRESHOLDS["auto"]
     assert (first["link_type"].to_numpy()[auto] == "same_person").all()
+
+
+@pytest.mark.parametrize("gap_days, same_family, expected", [
+    (10, False, "shared_identity"),   # unrelated names, one address, opened in a burst
+    (400, False, "household"),        # unrelated names, one address, years apart
+    (10, True, "household"),          # a family opening accounts together
+])
+def test_opened_together_at_one_address_is_not_a_household(gap_days, same_family, expected):
+    """Invented case: the mail-drop pattern of a ring versus a household (our own rule)."""
+    people = pd.DataFrame({
+        "record_id": ["a", "b"], "given_key": ["x", "y"], "given_root": ["x", "y"],
+        "family_key": ["p", "p" if same_family else "q"],
+        "family_core": ["p", "p" if same_family else "q"],
+        "birth_date": ["1980-01-01", "1990-05-05"],
+    }).astype("string")
+    people["created_at"] = pd.to_datetime(["2025-01-01", "2025-01-01"]) + pd.to_timedelta(
+        [0, gap_days], unit="D")
+    ids = pd.DataFrame({"rec": [0, 1], "kind": ["address"] * 2, "key": ["12|elm st||10001|US"] * 2,
+                        "status": ["valid"] * 2, "detail": [None, None]}).astype(
+        {"kind": "string", "key": "string", "status": "string", "detail": "string"})
+    pairs = pd.DataFrame({"rec_a": [0], "rec_b": [1], "prob": [0.01]})
+    for field, level in [("given_name", 1),
+                         ("family_name", field_spec("family_name").code_of("exact") if same_family else 1),
+                         ("birth_date", 1), ("national_id", 0), ("phone", 0), ("email", 0),
+                         ("address", field_spec("address").code_of("exact"))]:
+        pairs[f"lvl_{field}"] = np.int8(level)
+    links = type_links(pairs, people, ids, THRESHOLDS)
+    assert links["link_type"].iloc[0] == expected
