@@ -23,5 +23,5 @@ def extra_benchmarks(cache: Path, seed: int) -> dict:
         proc = subprocess.run([sys.executable, "-m", module], capture_output=True, text=True,
                               cwd=Path(__file__).resolve().parent.parent)
         lines = [ln for ln in proc.stdout.splitlines() if ln.strip()]
-        out[name] = lines[-12:] if proc.returncode == 0 else [f"failed: {proc.stderr[-300:]}"]
+        out[name] = lines[-60:] if proc.returncode == 0 else [f"failed: {proc.stderr[-300:]}"]
     return out
