@@ -60,12 +60,17 @@ def _stack(records: pd.DataFrame, role: str, context: pd.Series):
             raw[keep].reset_index(drop=True), ctx[keep].reset_index(drop=True))
 
 
+def _arr(series: pd.Series):
+    """The column's own array (Arrow-backed strings stay Arrow: no round trip via objects)."""
+    return series.array
+
+
 def _identifier_frame(kind, rec, slot, raw, result, key, detail) -> pd.DataFrame:
     return pd.DataFrame({
-        "rec": rec.to_numpy(np.int32), "kind": kind, "slot": slot.to_numpy(),
-        "raw": raw.to_numpy(), "value": result["value"].to_numpy(), "key": key.to_numpy(),
-        "status": result["status"].to_numpy(), "reason": result["reason"].to_numpy(),
-        "detail": detail.to_numpy(),
+        "rec": rec.to_numpy(np.int32), "kind": kind, "slot": _arr(slot),
+        "raw": _arr(raw), "value": _arr(result["value"]), "key": _arr(key),
+        "status": _arr(result["status"]), "reason": _arr(result["reason"]),
+        "detail": _arr(detail),
     })
 
 
@@ -95,27 +100,27 @@ def normalise_records(records: pd.DataFrame, settings: NormaliseSettings | None 
     addresses = normalise_addresses(_col(records, "street"), _col(records, "city"),
                                     _col(records, "postcode"), country)
     people = pd.DataFrame(index=index)
-    people["record_id"] = records["record_id"].to_numpy()
-    people["source"] = records["source_system"].to_numpy() if "source_system" in records.columns \
-        else records["source"].to_numpy()
-    people["country"] = country.to_numpy()
+    people["record_id"] = _arr(records["record_id"])
+    people["source"] = _arr(records["source_system"] if "source_system" in records.columns
+                            else records["source"])
+    people["country"] = _arr(country)
     for c in names.columns:
         target = "name_status" if c == "status" else "name_reason" if c == "reason" else c
         if c == "value":
             continue
-        people[target] = names[c].to_numpy()
-    people["birth_date"] = dates["value"].to_numpy()
-    people["birth_status"] = dates["status"].to_numpy()
-    people["birth_reason"] = dates["reason"].to_numpy()
-    people["birth_ambiguous"] = dates["ambiguous"].to_numpy()
-    people["birth_year"] = dates["year"].to_numpy()
-    people["birth_month"] = dates["month"].to_numpy()
-    people["birth_day"] = dates["day"].to_numpy()
+        people[target] = _arr(names[c])
+    people["birth_date"] = _arr(dates["value"])
+    people["birth_status"] = _arr(dates["status"])
+    people["birth_reason"] = _arr(dates["reason"])
+    people["birth_ambiguous"] = _arr(dates["ambiguous"])
+    people["birth_year"] = _arr(dates["year"])
+    people["birth_month"] = _arr(dates["month"])
+    people["birth_day"] = _arr(dates["day"])
     for c in ("house_number", "unit", "street_name", "postcode", "city", "address_key"):
         if c in addresses.columns:
-            people[c] = addresses[c].to_numpy()
-    people["address_status"] = addresses["status"].to_numpy()
-    people["address_reason"] = addresses["reason"].to_numpy()
+            people[c] = _arr(addresses[c])
+    people["address_status"] = _arr(addresses["status"])
+    people["address_reason"] = _arr(addresses["reason"])
     if "created_at" in records.columns:
         people["created_at"] = parse_timestamps(_col(records, "created_at")).to_numpy()
     else:
@@ -152,12 +157,12 @@ def normalise_records(records: pd.DataFrame, settings: NormaliseSettings | None 
     if has_addr.any():
         addr = pd.DataFrame({
             "rec": np.arange(n, dtype=np.int32)[has_addr], "kind": "address",
-            "slot": "street", "raw": _col(records, "street")[has_addr].to_numpy()
+            "slot": "street", "raw": _col(records, "street").array[has_addr]
             if "street" in records.columns else None,
-            "value": people["address_key"].to_numpy()[has_addr],
-            "key": people["address_key"].to_numpy()[has_addr],
-            "status": people["address_status"].to_numpy()[has_addr],
-            "reason": people["address_reason"].to_numpy()[has_addr], "detail": None,
+            "value": people["address_key"].array[has_addr],
+            "key": people["address_key"].array[has_addr],
+            "status": people["address_status"].array[has_addr],
+            "reason": people["address_reason"].array[has_addr], "detail": None,
         })
         parts.append(addr)
     if parts:
