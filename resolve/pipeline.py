@@ -128,11 +128,14 @@ def run_pipeline(inputs: list[str | Path], project_dir: str | Path,
         model = fit_model(compared, prepared, settings=ScoringSettings.coerce({"seed": settings.seed}))
     scored = score_pairs(compared, model, prepared)
     del compared
+    from resolve.project.thresholds import load_thresholds
+
+    saved = load_thresholds(project.path) or {}
     thresholds = {
         "auto": settings.auto_threshold if settings.auto_threshold is not None
-        else model.thresholds.accept_probability,
+        else saved.get("auto", model.thresholds.accept_probability),
         "review": settings.review_threshold if settings.review_threshold is not None
-        else model.thresholds.review_probability,
+        else saved.get("review", model.thresholds.review_probability),
     }
 
     clock.stage("link")

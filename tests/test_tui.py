@@ -444,8 +444,13 @@ def test_thresholds_preview_and_recluster(project):
             await pilot.press("enter")
             await settle(pilot)
             result = plain(screen.query_one("#th-result"))
-            assert "Re-clustered (not saved)" in result
+            assert "Re-clustered (stored results unchanged)" in result
             assert "multi-record 1 → 2" in result
+            # the chosen thresholds are kept for the next run, through the library
+            from resolve.project.thresholds import load_thresholds
+
+            saved = load_thresholds(project.path)
+            assert saved is not None and saved["auto"] > 0.99 and saved["review"] == 0.5
             await pilot.press("0")
             assert screen.proposed == {"auto": 0.99, "review": 0.5}
     run(go())

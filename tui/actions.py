@@ -97,6 +97,14 @@ class ReviewActions:
         with self._lock:
             return self.review.store.constraints()
 
+    def save_thresholds(self, thresholds: dict) -> None:
+        """Keep re-tuned thresholds for the next run (audited by the library)."""
+        from resolve.project.thresholds import save_thresholds
+
+        with self._lock:
+            save_thresholds(self.project_dir, thresholds["auto"], thresholds["review"],
+                            self.reviewer, store=self.review.store)
+
     # ------------------------------------------------------------------ deciding
     def decide(self, action: str, cluster_key: str, *, groups: list[list[str]] | None = None,
                note: str | None = None) -> Outcome:

@@ -155,6 +155,7 @@ class ThresholdsScreen(Screen):
         try:
             must, cannot = self.app.actions.constraints()
             result = recluster(self.app.data.run, thresholds, must, cannot)
+            self.app.actions.save_thresholds(thresholds)
         except ResolveError as exc:
             result = exc
         self.post_message(ThresholdsApplied(result))
@@ -168,14 +169,15 @@ class ThresholdsScreen(Screen):
             return
         b, a = result.before, result.after
         text = Text()
-        text.append("Re-clustered (not saved): ", style="bold")
+        text.append("Re-clustered (stored results unchanged): ", style="bold")
         text.append(f"entities {b['entities']:,} → {a['entities']:,}; "
                     f"multi-record {b['multi_record_entities']:,} → {a['multi_record_entities']:,}; "
                     f"largest {b['largest_entity']:,} → {a['largest_entity']:,}; "
                     f"review links {b['review_links']:,} → {a['review_links']:,}.\n")
         t = result.thresholds
-        text.append(f"To keep these thresholds, re-run: resolve run ... --review-threshold "
-                    f"{t['review']:.6g} --auto-threshold {t['auto']:.6g}", style="dim")
+        text.append(f"Saved for the next 'resolve run' (review {t['review']:.6g}, auto "
+                    f"{t['auto']:.6g}; audited); re-run to apply them to the stored results.",
+                    style="dim")
         out.update(text)
 
     def action_close(self) -> None:
