@@ -37,7 +37,17 @@ from phonenumbers import (
 )
 from phonenumbers.phonemetadata import PhoneMetadata
 
-from resolve.normalise.phone_digits import WIDTH, ZERO  # noqa: E402,F401  (shared constants)
+from resolve.normalise.phone_digits import (  # the digit-matrix helpers live there
+    WIDTH,
+    ZERO,
+    _drop_prefix,
+    _regex_match,
+    _regex_prefix,
+    _starts_with,
+    digit_matrix,
+    e164_strings,
+    to_arrow,
+)
 
 MAX_NSN = 17  # longest national significant number the reference library accepts
 
@@ -186,17 +196,6 @@ def main_rules(country_code: int) -> RegionRules:
 
 # ---------------------------------------------------------------------------------------
 # Digit matrices: one row per string, ASCII digit bytes left-aligned, plus a length vector.
-
-
-from resolve.normalise.phone_digits import (  # noqa: E402  (matrix helpers, split out)
-    _drop_prefix,
-    _regex_match,
-    _regex_prefix,
-    _starts_with,
-    digit_matrix,
-    e164_strings,
-    to_arrow,
-)
 
 
 
