@@ -18,7 +18,6 @@ Items:
 
 from __future__ import annotations
 
-import datetime as dt
 import math
 
 import numpy as np
@@ -233,18 +232,5 @@ def make_project(path, settings: str | None = None) -> Project:
     return project
 
 
-def clock(start: str = "2024-06-01T09:00:00"):
-    """A clock that ticks one second per call (UTC ISO text), for repeatable decisions."""
-    t = dt.datetime.fromisoformat(start).replace(tzinfo=dt.timezone.utc)
-    state = {"n": 0}
-
-    def now() -> str:
-        state["n"] += 1
-        return (t + dt.timedelta(seconds=state["n"])).isoformat(timespec="milliseconds")
-    return now
-
-
-def keys_by_kind(project: Project) -> dict[str, str]:
-    """Cluster key per item kind in the latest run."""
-    q = project.latest_run().table("queue")
-    return dict(zip(q["kind"], q["cluster_key"]))
+# The ticking clock and the key-per-kind lookup are shared with the store tests.
+from conftest_project import clock, keys as keys_by_kind  # noqa: E402,F401
