@@ -27,7 +27,16 @@ def explain_records(project_dir, record_a: str, record_b: str) -> pd.DataFrame:
             raise InputError(f"record '{rid}' is not in run {run.run_id}; check the record ID.")
         recs.append(int(hit[0]))
     model = MatchModel.load(run.path / "model.json")
-    return explain_pair(recs[0], recs[1], people, run.table("identifiers"), model)
+    return explain_pair(recs[0], recs[1], people, run.table("identifiers"), model,
+                        keys=_stored_keys(run, *recs))
+
+
+def _stored_keys(run, a: int, b: int) -> int | None:
+    """The blocking-key mask stored for this pair, or None when blocking did not propose it."""
+    a, b = min(a, b), max(a, b)
+    pairs = run.table("pairs", ["rec_a", "rec_b", "keys"])
+    hit = pairs[(pairs["rec_a"].to_numpy() == a) & (pairs["rec_b"].to_numpy() == b)]
+    return int(hit["keys"].iloc[0]) if len(hit) else None
 
 
 def format_explanation(table: pd.DataFrame, record_a: str, record_b: str) -> str:
@@ -45,7 +54,7 @@ def format_explanation(table: pd.DataFrame, record_a: str, record_b: str) -> str
     total = table[table["field"] == "total"].iloc[0]
     out = [f"Evidence for {record_a} vs {record_b} (weights in bits; positive = same person)", ""]
     out.append(_table(["field", "level", record_a, record_b, "m", "u", "weight"], rows))
-    out += ["", f"prior {prior['weight']:+.2f}   total {total['weight']:+.2f}   "
-            f"match probability {total['probability']:.4f}",
+    out += ["", f"prior {prior['weight']:+.2f} ({prior['label']})",
+            f"total {total['weight']:+.2f}   match probability {total['probability']:.4f}",
             "A score is a lead for human review, not a finding."]
     return "\n".join(out)

@@ -23,6 +23,7 @@ import pyarrow.compute as pc
 from resolve.compare.levels import FIELDS
 from resolve.project import Run
 from resolve.project.evidence import mask_national_id, national_id_columns
+from resolve.scoring.explain import stored_prior
 from tui.arrow_rows import KeyOrder, Rows, index_in, ranges, read, rows_of, strings
 from tui.data import QueueData, split_members
 
@@ -384,9 +385,9 @@ class RunIndex:
             va, vb = values.get(spec.name, ("", ""))
             rows.append({"field": SHORT_LABEL.get(spec.name, spec.label), "level": name, "meaning": label, "value_a": va,
                          "value_b": vb, "weight": float("nan") if weight is None else float(weight)})
-        prior = (model.get("prior") or {}).get("weight")
+        prior, meaning = stored_prior(model, pair.get("keys"))
         if prior is not None:
-            rows.append({"field": "prior", "level": "", "meaning": "starting weight of every pair",
+            rows.append({"field": "prior", "level": "", "meaning": meaning,
                          "value_a": "", "value_b": "", "weight": float(prior)})
         rows.append({"field": "total", "level": "", "meaning": f"match probability {float(pair['prob']):.4f}",
                      "value_a": "", "value_b": "", "weight": float(pair["weight"])})

@@ -17,11 +17,11 @@ Public API:
 
 from resolve.candidates.find import CandidateResult, find_candidates
 from resolve.candidates.quality import pairs_completeness
-from resolve.candidates.registry import (BLOCKING_KEYS, KEY_SPECS, BlockingKey, decode_keys,
-                                         has_key, key_mask)
+from resolve.candidates.registry import (BLOCKING_KEYS, KEY_FAMILIES, KEY_SPECS, BlockingKey,
+                                         decode_keys, has_key, key_family, key_mask)
 from resolve.candidates.settings import BlockingSettings, CapRule
 
 __all__ = [
-    "BLOCKING_KEYS", "KEY_SPECS", "BlockingKey", "BlockingSettings", "CandidateResult",
-    "CapRule", "decode_keys", "find_candidates", "has_key", "key_mask", "pairs_completeness",
+    "BLOCKING_KEYS", "KEY_FAMILIES", "KEY_SPECS", "BlockingKey", "BlockingSettings", "CandidateResult",
+    "CapRule", "decode_keys", "find_candidates", "has_key", "key_family", "key_mask", "pairs_completeness",
 ]

@@ -112,3 +112,27 @@ def decode_keys(mask: int) -> tuple[str, ...]:
 def has_key(keys, name: str) -> np.ndarray:
     """Boolean array: which masks in ``keys`` (array or Series) have the named key's bit set."""
     return (np.asarray(keys) & BLOCKING_KEYS[name]) != 0
+
+
+#: How a candidate pair was proposed, by the families of the blocking keys that fired: only
+#: identifier keys (shared phone, email, national ID, address or a one-edit national ID),
+#: only person keys (name, birth-date and postcode combinations), or both. The match model
+#: keeps a prior per family (see `resolve.scoring.model`). Order is a contract: the codes
+#: returned by `key_family` index this tuple.
+KEY_FAMILIES = ("identifier", "person", "both")
+
+_PERSON_MASK = sum(k.mask for k in _KEYS if k.source == "person")
+_IDENTIFIER_MASK = sum(k.mask for k in _KEYS if k.source != "person")
+
+
+def key_family(keys) -> np.ndarray:
+    """Code per pair (index into `KEY_FAMILIES`) from the pairs' ``keys`` masks, int8.
+
+    A mask with no bit set (a pair blocking did not propose, e.g. one a reviewer asked
+    about) gets -1: the model then uses its overall prior for it.
+    """
+    k = np.asarray(keys, dtype=np.int64)
+    person = (k & _PERSON_MASK) != 0
+    identifier = (k & _IDENTIFIER_MASK) != 0
+    family = np.where(person & identifier, 2, np.where(person, 1, 0))
+    return np.where(person | identifier, family, -1).astype(np.int8)

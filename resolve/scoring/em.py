@@ -9,6 +9,12 @@ Survey Research Methods 667-671; Jaro 1989, JASA 84:414-420) alternates:
 - M step: λ = mean g; m_f(l) = share of level l among pairs, weighted by g;
   (optionally) u_f(l) likewise weighted by 1 - g.
 
+The prior can differ between groups of pairs known in advance (`run_em` ``groups``: the
+pipeline passes the family of blocking keys that proposed each pair). Each group then gets
+its own λ while m and u stay shared: a covariate-dependent mixing proportion. The M step
+for a group's λ is the mean g over the group's pairs, shrunk towards the overall λ by
+``prior_pseudo_count`` pseudo-pairs so that a small group cannot run to 0 or 1.
+
 Neutral levels (missing values) are left out of the likelihood: they contribute a factor 1
 to both classes and are not counted in the M step. Pairs with the same level vector are
 handled once, weighted by their count, so EM over millions of pairs costs a few thousand
@@ -37,6 +43,10 @@ class EMResult:
     converged: bool
     log_likelihood: float
     patterns: int
+    #: λ per group of pairs (one entry, equal to ``prior``, without groups).
+    group_priors: np.ndarray | None = None
+    #: Pairs per group.
+    group_sizes: np.ndarray | None = None
 
 
 def level_patterns(levels: np.ndarray, sizes: list[int]) -> tuple[np.ndarray, np.ndarray]:
@@ -110,6 +120,9 @@ def run_em(
     max_iterations: int = 500,
     tolerance: float = 1e-6,
     pseudo_count: float = 0.5,
+    groups: np.ndarray | None = None,
+    n_groups: int = 1,
+    prior_pseudo_count: float = 0.0,
 ) -> EMResult:
     """Fit m (and optionally u) and the prior λ by EM on a (pairs x fields) level matrix.
 
@@ -120,21 +133,29 @@ def run_em(
     given (the random-pair u), else like ``u_init``. With ``update_u``, ``u_floor[f]`` (if
     given) is a lower bound for u of each level of field f (see `lift_to_floor`). Stops when
     no probability moves by more than ``tolerance`` in one iteration, or after
-    ``max_iterations``.
+    ``max_iterations``. ``groups`` (int codes 0..n_groups-1 per pair) gives each group its
+    own prior, shrunk towards the overall share by ``prior_pseudo_count`` pseudo-pairs.
     """
     sizes = [len(n) for n in neutral]
-    patterns, counts = level_patterns(levels, sizes)
+    if groups is None:
+        groups = np.zeros(levels.shape[0], dtype=np.int64)
+        n_groups = 1
+    with_group = np.column_stack([levels, np.asarray(groups, dtype=np.int64)])
+    patterns, counts = level_patterns(with_group, sizes + [n_groups])
+    group_of, patterns = patterns[:, -1], patterns[:, :-1]
+    group_sizes = np.bincount(group_of, counts, n_groups)
     total = counts.sum()
     m = [np.asarray(x, dtype=np.float64).copy() for x in m_init]
     u = [np.asarray(x, dtype=np.float64).copy() for x in u_init]
     m0 = [x.copy() for x in m]
     u0 = [np.asarray(x, dtype=np.float64) for x in u_prior] if u_prior else [x.copy() for x in u]
     prior = float(prior_init)
+    priors = np.full(n_groups, prior)
     change = np.inf
     iteration = 0
     log_lik = float("nan")
     if total == 0:
-        return EMResult(m, u, prior, 0, 0.0, False, log_lik, 0)
+        return EMResult(m, u, prior, 0, 0.0, False, log_lik, 0, priors, group_sizes)
 
     for iteration in range(1, max_iterations + 1):
         log_m = np.zeros(patterns.shape[0])
@@ -142,8 +163,8 @@ def run_em(
         for f in range(len(sizes)):
             log_m += _log_table(m[f], neutral[f])[patterns[:, f]]
             log_u += _log_table(u[f], neutral[f])[patterns[:, f]]
-        a = np.log(prior) + log_m
-        b = np.log1p(-prior) + log_u
+        a = np.log(priors[group_of]) + log_m
+        b = np.log1p(-priors[group_of]) + log_u
         g = expit(a - b)
         log_lik = float(np.sum(counts * np.logaddexp(a, b)))
 
@@ -152,6 +173,12 @@ def run_em(
         new_prior = float(np.clip(weights_m.sum() / total, 1e-9, 1 - 1e-9))
         change = abs(new_prior - prior)
         prior = new_prior
+        matches = np.bincount(group_of, weights_m, n_groups)
+        shrunk = (matches + prior_pseudo_count * prior) / np.maximum(
+            group_sizes + prior_pseudo_count, 1e-300)
+        new_priors = np.clip(np.where(group_sizes > 0, shrunk, prior), 1e-9, 1 - 1e-9)
+        change = max(change, float(np.max(np.abs(new_priors - priors))))
+        priors = new_priors
         for f, size in enumerate(sizes):
             col = patterns[:, f]
             observed = ~neutral[f][col]
@@ -178,4 +205,6 @@ def run_em(
         converged=bool(change < tolerance),
         log_likelihood=log_lik,
         patterns=int(patterns.shape[0]),
+        group_priors=priors,
+        group_sizes=group_sizes,
     )

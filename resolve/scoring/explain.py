@@ -9,14 +9,24 @@ characters unless asked otherwise.
 
 from __future__ import annotations
 
+import math
+
 import numpy as np
 import pandas as pd
 
+from resolve.candidates.registry import KEY_FAMILIES, key_family
 from resolve.compare import FIELDS, PreparedRecords, compare_pairs, prepare_records
 from resolve.compare.align import text_column
 from resolve.errors import InputError
 from resolve.scoring.model import MatchModel, weight_to_probability
 from resolve.scoring.score import field_weights
+
+#: How each key family reads in a prior's label.
+FAMILY_WORDS = {
+    "identifier": "identifier keys only",
+    "person": "name and birth-date keys only",
+    "both": "both identifier and name/birth-date keys",
+}
 
 #: People columns shown for each record-level field.
 SHOWN = {
@@ -60,13 +70,16 @@ def explain_pair(
     model: MatchModel,
     *,
     mask_ids: bool = True,
+    keys: int | None = None,
 ) -> pd.DataFrame:
     """Field-by-field account of one pair's match weight.
 
     Returns one row per compared field (``field``, ``level``, ``level_name``, ``label``,
     ``value_a``, ``value_b``, ``m``, ``u``, ``tf_adjusted``, ``weight``), then a ``prior``
     row and a ``total`` row whose ``probability`` is the pair's match probability. Weights
-    are in bits (log2); positive weights point to the same person.
+    are in bits (log2); positive weights point to the same person. ``keys`` is the pair's
+    blocking-key mask as stored with the run: the prior is then that of the pair's key
+    family (`MatchModel.family_prior`); without it, the overall prior.
     """
     if isinstance(people, PreparedRecords):
         prepared = people
@@ -82,6 +95,12 @@ def explain_pair(
     pair = pd.DataFrame({"rec_a": np.array([a], np.int32), "rec_b": np.array([b], np.int32)})
     compared = compare_pairs(pair, prepared)
     weights, tf_used = field_weights(compared, model, prepared, with_tf_u=True)
+    family = None
+    if keys is not None:
+        code = int(key_family(np.array([int(keys)]))[0])
+        family = KEY_FAMILIES[code] if code >= 0 else None
+    prior = model.family_prior(family)
+    prior_weight = math.log2(prior / (1.0 - prior))
 
     rows = []
     for spec in FIELDS:
@@ -107,16 +126,21 @@ def explain_pair(
                 if not np.isnan(used):
                     row["u"], row["tf_adjusted"] = float(used), True
         rows.append(row)
-    total = model.prior_weight + sum(r["weight"] for r in rows)
+    total = prior_weight + sum(r["weight"] for r in rows)
+    if family is None:
+        prior_label = f"share of matches among candidate pairs: {prior:.4g}"
+    else:
+        prior_label = (f"share of matches among pairs proposed by {FAMILY_WORDS[family]}: "
+                       f"{prior:.4g}")
     base = {"level": -1, "level_name": "", "value_a": "", "value_b": ""}
     base.update({"m": np.nan, "u": np.nan, "tf_adjusted": False})
     rows.append(
         base
         | {
             "field": "prior",
-            "label": f"share of matches among candidate pairs: {model.prior:.4g}",
-            "weight": model.prior_weight,
-            "probability": model.prior,
+            "label": prior_label,
+            "weight": prior_weight,
+            "probability": prior,
         }
     )
     rows.append(
@@ -129,3 +153,22 @@ def explain_pair(
         }
     )
     return pd.DataFrame(rows)
+
+
+def stored_prior(model: dict, keys: int | None) -> tuple[float | None, str]:
+    """The prior weight a saved model (its JSON as a dict) gave a pair with this blocking-key
+    mask, and a sentence saying what it is; (None, "") when the model has no prior.
+
+    For screens that show stored scores without loading a `MatchModel`.
+    """
+    prior = model.get("prior") or {}
+    family = None
+    if keys is not None:
+        code = int(key_family(np.array([int(keys)]))[0])
+        family = KEY_FAMILIES[code] if code >= 0 else None
+    entry = (prior.get("by_key_family") or {}).get(family) if family else None
+    if entry is not None:
+        return float(entry["weight"]), f"starting weight of pairs proposed by {FAMILY_WORDS[family]}"
+    if prior.get("weight") is None:
+        return None, ""
+    return float(prior["weight"]), "starting weight of every candidate pair"

@@ -23,6 +23,7 @@ from typing import Any, Mapping
 import numpy as np
 import pandas as pd
 
+from resolve.candidates.registry import KEY_FAMILIES, key_family
 from resolve.compare import FIELD_BY_NAME, FIELDS, CompareSettings, PreparedRecords
 from resolve.compare import prepare_records
 from resolve.compare.align import pair_arrays
@@ -50,6 +51,10 @@ class ScoringSettings:
     update_u: bool = True
     #: Added to every level's count when estimating m and u.
     pseudo_count: float = 0.5
+    #: Keep a prior per family of blocking keys (identifier / person / both).
+    prior_by_key_family: bool = True
+    #: Pseudo-pairs at the overall prior added to each key family's when estimating it.
+    prior_pseudo_count: float = 100.0
     #: Fields to model (default: all compared fields).
     fields: tuple[str, ...] = tuple(spec.name for spec in FIELDS)
     #: Fields whose exact agreement gets the term-frequency adjustment.
@@ -174,6 +179,11 @@ def fit_model(
     # agreement levels (codes above "different") keep at least their random-pair u
     floors = [np.where(np.arange(len(ur)) > DIFFERENT, ur, 0.0) for ur in u]
     levels = np.column_stack([compared[spec.column].to_numpy(dtype=np.int8) for spec in specs])
+    groups, n_groups = None, 1
+    if cfg.prior_by_key_family and "keys" in compared.columns:
+        groups = key_family(compared["keys"].to_numpy()).astype(np.int64)
+        groups = np.where(groups < 0, 0, groups)  # unproposed pairs: counted with identifier
+        n_groups = len(KEY_FAMILIES)
     u_start = u
     if cfg.update_u:
         u_start = [
@@ -192,6 +202,9 @@ def fit_model(
         max_iterations=cfg.max_iterations,
         tolerance=cfg.tolerance,
         pseudo_count=cfg.pseudo_count,
+        groups=groups,
+        n_groups=n_groups,
+        prior_pseudo_count=cfg.prior_pseudo_count,
     )
 
     field_models = {}
@@ -206,7 +219,14 @@ def fit_model(
         ]
         field_models[spec.name] = FieldModel(spec.name, params, spec.name in cfg.term_frequency)
     thresholds = Thresholds(cfg.false_merge_cost, cfg.missed_merge_cost, cfg.review_cost)
-    model = MatchModel(field_models, em.prior, thresholds, cfg.tf_min_u)
+    family_priors = {}
+    if groups is not None:
+        family_priors = {
+            name: float(em.group_priors[i])
+            for i, name in enumerate(KEY_FAMILIES) if em.group_sizes[i] > 0
+        }
+    model = MatchModel(field_models, em.prior, thresholds, cfg.tf_min_u,
+                       family_priors=family_priors)
     model.fit = {
         "candidate_pairs": int(len(compared)),
         "random_pairs": n_random,
@@ -220,6 +240,11 @@ def fit_model(
             "level_patterns": em.patterns,
             "u_updated_by_em": cfg.update_u,
             "pseudo_count": cfg.pseudo_count,
+            "prior_pseudo_count": cfg.prior_pseudo_count if groups is not None else None,
+            "pairs_by_key_family": (
+                {name: int(em.group_sizes[i]) for i, name in enumerate(KEY_FAMILIES)}
+                if groups is not None else None
+            ),
         },
         "expected": expected_outcomes(score_pairs(compared, model, prepared), model),
     }

@@ -7,7 +7,12 @@ fitted on one extract can be reviewed, adjusted and reused on the next without r
 Weights follow Fellegi & Sunter (1969, JASA 64:1183-1210): a level's match weight is
 log2(m / u), where m is the probability of the level among true matches and u among
 non-matches. Neutral levels (missing values) weigh 0. The prior weight is log2(λ / (1 - λ)),
-λ being the share of matches among the candidate pairs.
+λ being the share of matches among the candidate pairs. The model keeps one λ per family of
+blocking keys that proposed a pair (`resolve.candidates.registry.KEY_FAMILIES`: identifier
+keys only, person keys only, or both): a pair that shares a phone *and* a name-and-birth-date
+key is far more often a duplicate than one that only shares a phone, and the fields alone
+cannot say so because, among candidate pairs, they are not independent (see docs/matching.md,
+"Prior per key family"). A pair blocking did not propose uses the overall λ.
 
 Agreement never counts against a match and disagreement never counts for one: the weight
 of an agreement level (any level above "different"), after any term-frequency adjustment, is
@@ -28,11 +33,14 @@ from typing import Any
 
 import numpy as np
 
+from resolve.candidates.registry import KEY_FAMILIES, key_family
 from resolve.compare.levels import DIFFERENT, FIELD_BY_NAME, FIELDS, FieldSpec
 from resolve.errors import InputError
 
 FORMAT = "resolve.match-model"
-VERSION = 2
+VERSION = 3
+#: Model files this version reads (version 2 has one prior for every pair).
+READS_VERSIONS = (2, 3)
 
 
 def match_weight(m: float, u: float) -> float:
@@ -187,11 +195,27 @@ class MatchModel:
     thresholds: Thresholds = field(default_factory=Thresholds)
     tf_min_u: float = 1e-5
     fit: dict[str, Any] = field(default_factory=dict)
+    #: λ per key family name (`KEY_FAMILIES`); a family absent here uses ``prior``.
+    family_priors: dict[str, float] = field(default_factory=dict)
 
     @property
     def prior_weight(self) -> float:
-        """log2(λ / (1 - λ)): the weight every pair starts from."""
+        """log2(λ / (1 - λ)) of the overall λ: the start of a pair blocking did not propose."""
         return math.log2(self.prior / (1.0 - self.prior))
+
+    def family_prior(self, family: str | None) -> float:
+        """λ of a key family (the overall λ for None or a family the model lacks)."""
+        return self.family_priors.get(family, self.prior) if family else self.prior
+
+    def prior_weights(self, keys) -> np.ndarray:
+        """Starting weight of each pair, float64, from its blocking ``keys`` masks (a mask
+        of 0, no key, starts from the overall λ)."""
+        codes = key_family(keys)
+        table = np.array(
+            [math.log2(p / (1.0 - p)) for p in (self.family_prior(f) for f in KEY_FAMILIES)]
+            + [self.prior_weight]
+        )
+        return table[np.where(codes < 0, len(KEY_FAMILIES), codes)]
 
     def field_names(self) -> list[str]:
         """The modelled fields in catalogue order."""
@@ -224,7 +248,14 @@ class MatchModel:
                 "an agreement level nor above 0 for 'different'); 'weight' is shown for "
                 "reading and is recomputed on load. Edit m, u, prior or costs, then score."
             ),
-            "prior": {"lambda": _round(self.prior), "weight": round(self.prior_weight, 4)},
+            "prior": {
+                "lambda": _round(self.prior),
+                "weight": round(self.prior_weight, 4),
+                "by_key_family": {
+                    name: {"lambda": _round(p), "weight": round(math.log2(p / (1.0 - p)), 4)}
+                    for name, p in self.family_priors.items()
+                },
+            },
             "thresholds": self.thresholds.to_dict(),
             "term_frequency": {"min_u": self.tf_min_u},
             "fields": fields_out,
@@ -236,7 +267,7 @@ class MatchModel:
         """Rebuild a model from `to_dict` output (possibly edited by hand), with checks."""
         if data.get("format") != FORMAT:
             raise InputError("This file is not a resolve match model; pass a file saved by it.")
-        if data.get("version") != VERSION:
+        if data.get("version") not in READS_VERSIONS:
             raise InputError(
                 f"Match model version {data.get('version')} is not supported; refit the model."
             )
@@ -249,15 +280,25 @@ class MatchModel:
             fields = {
                 name: _field_from_dict(name, spec) for name, spec in fields_in.items()
             }
+            by_family = data["prior"].get("by_key_family") or {}
+            family_priors = {str(k): float(v["lambda"]) for k, v in by_family.items()}
         except (KeyError, TypeError, ValueError) as exc:
             raise InputError(
                 f"The match model file is incomplete or malformed ({exc}); refit or fix it."
             ) from None
         if not 0.0 < prior < 1.0:
             raise InputError("The model prior (lambda) must be between 0 and 1; fix the file.")
+        unknown = sorted(set(family_priors) - set(KEY_FAMILIES))
+        if unknown:
+            raise InputError(
+                f"The model names an unknown key family {unknown[0]!r}; use only "
+                f"{', '.join(KEY_FAMILIES)}."
+            )
+        if not all(0.0 < p < 1.0 for p in family_priors.values()):
+            raise InputError("Every key family's lambda must be between 0 and 1; fix the file.")
         if not 0.0 < tf_min_u < 1.0:
             raise InputError("term_frequency.min_u must be between 0 and 1; fix the file.")
-        return cls(fields, prior, thresholds, tf_min_u, dict(data.get("fit", {})))
+        return cls(fields, prior, thresholds, tf_min_u, dict(data.get("fit", {})), family_priors)
 
     def save(self, path: str | Path) -> None:
         """Write the model as indented JSON (stable key order, so files diff cleanly)."""
@@ -319,6 +360,7 @@ def model_from_probabilities(
     thresholds: Thresholds | None = None,
     tf_min_u: float = 1e-5,
     fit: dict[str, Any] | None = None,
+    family_priors: dict[str, float] | None = None,
 ) -> MatchModel:
     """Build a model from m and u per field and level code (neutral levels may be omitted)."""
     fields: dict[str, FieldModel] = {}
@@ -339,4 +381,5 @@ def model_from_probabilities(
                     )
                 )
         fields[name] = FieldModel(name, levels, name in term_frequency)
-    return MatchModel(fields, prior, thresholds or Thresholds(), tf_min_u, fit or {})
+    return MatchModel(fields, prior, thresholds or Thresholds(), tf_min_u, fit or {},
+                      dict(family_priors or {}))

@@ -94,7 +94,8 @@ def score_pairs(
     (they decide which identifier statuses count); ignored with `PreparedRecords`.
 
     Adds float32 ``w_<field>`` per field, float32 ``weight`` (sum of field weights plus the
-    prior weight, log2 odds) and float64 ``prob``.
+    prior weight, log2 odds) and float64 ``prob``. The prior weight is that of the pair's
+    key family when ``compared`` has the blocking ``keys`` column, else the overall one.
     """
     prepared: PreparedRecords | None
     if people is None or isinstance(people, PreparedRecords):
@@ -105,7 +106,10 @@ def score_pairs(
         prepared = prepare_records(people, identifiers, settings)
     weights, _ = field_weights(compared, model, prepared)
     out = compared.copy()
-    total = np.full(len(compared), model.prior_weight, dtype=np.float64)
+    if "keys" in compared.columns:
+        total = model.prior_weights(compared["keys"].to_numpy())
+    else:  # pairs without their blocking keys: every pair starts from the overall prior
+        total = np.full(len(compared), model.prior_weight, dtype=np.float64)
     for spec in FIELDS:
         out[spec.weight_column] = weights[spec.name].astype(np.float32)
         total += weights[spec.name]
