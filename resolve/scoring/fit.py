@@ -1,4 +1,4 @@
-"""Fit a match model to one run: u from random record pairs and EM, m and the prior by EM.
+"""Fit a match model to one run: u from random record pairs and EM, m and the priors by EM.
 
 - u (how often each level occurs among non-matches) is first counted on a seeded random
   sample of record pairs: two records drawn at random are almost never the same person.
@@ -10,6 +10,11 @@
   is smoothed towards the random-pair u, and for agreement levels is never taken below it.
   With u held at the random-pair values, household pairs look like duplicates and EM can
   end up calling every candidate a match.
+- λ is kept per key family (pairs proposed by identifier keys only, by person keys only, or
+  by both; `resolve.candidates.registry.key_family`), each shrunk towards the overall λ by
+  `ScoringSettings.prior_pseudo_count` pseudo-pairs: which kinds of key proposed a pair says
+  which kind of non-match it could be (household-like or namesake-like), a dependence the
+  independent fields cannot express (docs/matching.md, "Prior per key family").
 - The decision thresholds come from the model's probabilities and the stated costs of a
   false merge, a missed merge and a review (`resolve.scoring.model.Thresholds`). No ground
   truth is used anywhere.
