@@ -61,11 +61,15 @@ class IdentifierSlots:
         for col in _IDENTIFIER_COLUMNS:
             if col not in ids.columns:
                 ids = ids.assign(**{col: pd.Series(pd.NA, index=ids.index, dtype="string")})
+        # select this kind's rows first (a categorical compares without converting), so the
+        # string work below touches a third of the table, not all of it
+        of_kind = np.flatnonzero(
+            pd.Series(ids["kind"]).eq(kind).to_numpy(dtype=bool, na_value=False))
+        ids = ids[["rec", "key", "status", "detail"]].iloc[of_kind]
         key = ids["key"].astype("string").str.strip()
         usable = (
-            (ids["kind"].astype("string") == kind).fillna(False)
-            & (key != "").fillna(False)
-            & ~ids["status"].astype("string").isin(settings.unusable_status).fillna(False)
+            (key != "").fillna(False)
+            & ~ids["status"].isin(settings.unusable_status).fillna(False)
         ).to_numpy(dtype=bool)
         rec = pd.to_numeric(ids["rec"]).to_numpy()[usable].astype(np.int64)
         if rec.size and (rec.min() < 0 or rec.max() >= n):
