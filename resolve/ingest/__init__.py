@@ -15,6 +15,7 @@ import numpy as np
 import pandas as pd
 
 from resolve.errors import InputError, MappingError, ResolveError
+from resolve.ingest import columns
 from resolve.ingest.mapping import Mapping, detect_mapping, load_mapping
 from resolve.ingest.readers import RawTable, read_any
 from resolve.ingest.roles import MULTI_ROLES, ROLES
@@ -98,7 +99,10 @@ def read_inputs(paths: list[str | Path], mapping: Mapping | str | Path | None = 
         file_rows.append({"file": raw.path.name, "rows": raw.total_rows,
                           "accepted": len(table), "quarantined": len(quarantine),
                           "encoding": raw.encoding})
-    records = pd.concat(parts, ignore_index=True) if parts else pd.DataFrame()
+    if len(parts) == 1:
+        records = parts[0]
+    else:
+        records = pd.concat(parts, ignore_index=True) if parts else pd.DataFrame()
     quarantine = pd.concat(quarantines, ignore_index=True)
     records, dup_q = _quarantine_duplicate_ids(records)
     if len(dup_q):
@@ -123,21 +127,25 @@ def mapping_notes(mapping: Mapping, detected: bool) -> list[str]:
 
 
 def _map_rows(raw: RawTable, mapping: Mapping, settings: IngestSettings):
+    """Map one file's columns to roles and accept or quarantine each of its rows.
+
+    Column work runs on the Arrow strings (`resolve.ingest.columns`); reasons are kept in
+    numpy arrays and turned into a frame only for the rejected rows.
+    """
     frame = raw.frame
     n = len(frame)
-    empty = pd.Series(pd.array([None] * n, dtype="string"))
+    empty = columns.blank(n)
 
     def col(name: str) -> pd.Series:
         if name in frame.columns:
-            s = frame[name].reset_index(drop=True).astype("string").str.strip()
-            return s.mask(s == "")
+            return columns.trimmed(frame[name])
         return empty
 
     out: dict[str, pd.Series] = {}
     rid_col = mapping.single("record_id")
     out["record_id"] = col(rid_col)
-    out["source"] = pd.Series(pd.array([raw.path.stem] * n, dtype="string"))
-    out["file"] = pd.Series(pd.array([raw.path.name] * n, dtype="string"))
+    out["source"] = columns.constant(raw.path.stem, n)
+    out["file"] = columns.constant(raw.path.name, n)
     out["row_number"] = raw.row_numbers.reset_index(drop=True).astype("int64")
     for role in ROLES:
         if role.name == "record_id":
@@ -160,30 +168,34 @@ def _map_rows(raw: RawTable, mapping: Mapping, settings: IngestSettings):
         else:
             out[role.name] = col(cols[0])
     table = pd.DataFrame(out)
-    reason = pd.Series(pd.array([None] * n, dtype="string"))
-    detail = pd.Series(pd.array([None] * n, dtype="string"))
+    reason = np.full(n, None, dtype=object)
+    detail = np.full(n, None, dtype=object)
+    open_rows = np.ones(n, dtype=bool)  # rows with no reason yet
     # Field-size guard over every column read from the file (mapped or not).
     for c in frame.columns:
-        too_long = (frame[c].reset_index(drop=True).str.len() > settings.max_field_chars)
-        too_long = too_long.fillna(False).astype(bool) & reason.isna()
+        too_long = columns.longer_than(frame[c], settings.max_field_chars) & open_rows
         if too_long.any():
             reason[too_long] = "field_too_long"
             detail[too_long] = f"column '{c}' is over {settings.max_field_chars} characters"
-    no_id = table["record_id"].isna() & reason.isna()
+            open_rows &= ~too_long
+    no_id = table["record_id"].isna().to_numpy() & open_rows
     reason[no_id] = "no_record_id"
     detail[no_id] = f"column '{rid_col}' is blank"
+    open_rows &= ~no_id
     if settings.require_birth_date and "birth_date" in table.columns:
         from resolve.normalise.dates import normalise_dates
 
         dates = normalise_dates(table["birth_date"])
-        bad = dates["status"].isin(["invalid", "missing"]).to_numpy() & reason.isna().to_numpy()
+        bad = dates["status"].isin(["invalid", "missing"]).to_numpy() & open_rows
         reason[bad] = "unreadable_birth_date"
         detail[bad] = "birth date blank or not a date"
-    rejected = reason.notna().to_numpy()
+        open_rows &= ~bad
+    rejected = ~open_rows
     q = pd.DataFrame({
         "file": table["file"][rejected], "row_number": table["row_number"][rejected],
-        "record_id": table["record_id"][rejected], "reason": reason[rejected],
-        "detail": detail[rejected],
+        "record_id": table["record_id"][rejected],
+        "reason": pd.Series(reason[rejected], index=table.index[rejected], dtype="string"),
+        "detail": pd.Series(detail[rejected], index=table.index[rejected], dtype="string"),
     })
     if raw.rejected:
         early = pd.DataFrame(raw.rejected)
@@ -191,11 +203,16 @@ def _map_rows(raw: RawTable, mapping: Mapping, settings: IngestSettings):
         early.insert(2, "record_id", pd.NA)
         q = pd.concat([q, early], ignore_index=True)
     q = q.astype({"file": "string", "record_id": "string", "reason": "string", "detail": "string"})
+    if not rejected.any():  # the usual case: no copy of the whole table
+        return table, q
     return table[~rejected].reset_index(drop=True), q
 
 
 def _quarantine_duplicate_ids(records: pd.DataFrame):
-    dup = records["record_id"].duplicated(keep="first").to_numpy()
+    if len(records) == 0 or columns.all_distinct(records["record_id"]):
+        dup = np.zeros(len(records), dtype=bool)  # hashing once is enough to know
+    else:
+        dup = records["record_id"].duplicated(keep="first").to_numpy()
     if not dup.any():
         return records, pd.DataFrame(columns=["file", "row_number", "record_id", "reason", "detail"])
     first_row = records.drop_duplicates("record_id").set_index("record_id")

@@ -12,8 +12,10 @@ import re
 
 import pandas as pd
 import phonenumbers
+import pyarrow as pa
+import pyarrow.compute as pc
 
-from resolve.normalise.distinct import clean_text
+from resolve.normalise.textkeys import STRING, to_arrow, to_series
 
 _ALIASES = {
     "usa": "US", "u s a": "US", "u s": "US", "united states": "US",
@@ -45,11 +47,14 @@ def _one(value: str) -> str | None:
 
 
 def normalise_countries(raw: pd.Series | None, default: str = "US", index=None) -> pd.Series:
-    """Return ISO-2 codes aligned with ``raw``; blanks and unknown values take ``default``."""
+    """Return ISO-2 codes aligned with ``raw``; blanks and unknown values take ``default``.
+
+    Each distinct value is read once (`_one`); the codes are spread back over the records
+    with Arrow. Surrounding white space needs no trim first: `_one` folds it away.
+    """
     if raw is None:
         return pd.Series(default, index=index, dtype="string")
-    cleaned = clean_text(raw)
-    codes, uniques = pd.factorize(cleaned)
-    mapped = pd.array([_one(u) for u in uniques] + [None], dtype="string")
-    out = pd.Series(mapped[codes], index=raw.index, dtype="string")
-    return out.fillna(default)
+    encoded = pc.dictionary_encode(to_arrow(raw))
+    codes = [_one(u) or default for u in encoded.dictionary.to_pylist()]
+    mapped = pc.take(pa.array(codes, STRING), encoded.indices)
+    return to_series(pc.fill_null(mapped, default), index=raw.index)

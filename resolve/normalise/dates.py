@@ -72,6 +72,9 @@ _TIME = (r"^(?P<date>.*?)(?:T|\s+)(?P<h>[0-9]{1,2}):(?P<mi>[0-9]{2})"
          r"(?::(?P<s>[0-9]{2})(?:[.,](?P<frac>[0-9]{1,9}))?)?"
          r"\s*(?:(?P<ap>[AP])\.?M\.?)?\s*(?P<zone>Z|UTC|GMT|[+-][0-9]{2}:?[0-9]{2})?$")
 _WEEKDAY = r"^(?:MON|TUE|WED|THU|FRI|SAT|SUN)[A-Z]*\.?,?\s*"
+# The usual ISO 8601 timestamp; for it the groups of _TIME are these code-unit ranges.
+_ISO_SECONDS = r"^[0-9]{4}-[0-9]{2}-[0-9]{2}T[0-9]{2}:[0-9]{2}:[0-9]{2}$"
+_ISO_CUTS = {"date": (0, 10), "h": (11, 13), "mi": (14, 16), "s": (17, 19)}
 _STRING = pd.StringDtype("pyarrow")
 _DAYS = np.array([31, 28, 31, 30, 31, 30, 31, 31, 30, 31, 30, 31])
 _MONTH_NAMES = pa.array(list(MONTHS))
@@ -199,9 +202,9 @@ def _read_parts(values: pd.Series, today: dt.date) -> dict[str, np.ndarray]:
         text = pc.replace_with_mask(text, _mask(len(text), wide), folded)
     k = len(text)
     blank = ~_flag(pc.greater(pc.binary_length(text), 0))
-    timed = pc.extract_regex(text, _TIME)
-    has_time = _flag(pc.is_valid(timed))
-    date_text = pc.if_else(has_time, pc.struct_field(timed, "date"), text)
+    timed = _time_parts(text)
+    has_time = timed["_hit"]
+    date_text = pc.if_else(has_time, timed["date"], text)
     date_text = pc.replace_substring_regex(date_text, _WEEKDAY, "")
     date_text = pc.replace_substring_regex(date_text, r"([0-9])(?:ST|ND|RD|TH)\b", r"\1")
     date_text = pc.utf8_trim_whitespace(pc.replace_substring_regex(date_text, r"\bOF\b", " "))
@@ -239,18 +242,64 @@ def _read_parts(values: pd.Series, today: dt.date) -> dict[str, np.ndarray]:
     year = np.where(two_digit, np.where(year > pivot, century - 100 + year, century + year), year)
 
     def number(name: str) -> np.ndarray:
-        return np.maximum(_ints(pc.struct_field(timed, name)), 0)
+        return np.maximum(_ints(timed[name]), 0)
 
     hour = number("h")
-    ap = pc.struct_field(timed, "ap")
+    ap = timed["ap"]
     pm, am = _flag(pc.equal(ap, "P")), _flag(pc.equal(ap, "A"))
     on_clock = (hour >= 1) & (hour <= 12)  # 12-hour times run 12:00 AM .. 11:59 PM
     hour = np.where(am | pm, np.where(on_clock, hour % 12 + 12 * pm, 99), hour)
-    fraction = pc.utf8_rpad(pc.fill_null(pc.struct_field(timed, "frac"), ""), 9, "0")
+    fraction = pc.utf8_rpad(pc.fill_null(timed["frac"], ""), 9, "0")
     return {"blank": blank, "matched": matched, "year": year, "first": first,
             "second": second, "flex": flex, "hour": hour, "minute": number("mi"),
             "sec": number("s"), "nanos": _ints(fraction),
-            "offset": _offset_minutes(pc.struct_field(timed, "zone"))}
+            "offset": _offset_minutes(timed["zone"])}
+
+
+def _time_parts(text: pa.Array) -> dict:
+    """The groups of ``_TIME`` per value (null where it does not match) and ``_hit``.
+
+    A time of day always holds a colon, so only values with one are looked at; most birth
+    dates have none. Capturing groups costs far more than matching, so the usual ISO 8601
+    shape ``YYYY-MM-DDTHH:MM:SS`` is cut at fixed places (the pattern's groups fall exactly
+    there for it) and only the other values are captured with ``_TIME``.
+    """
+    n = len(text)
+    names = re.findall(r"\?P<(\w+)>", _TIME)
+    out = {name: pa.nulls(n, text.type) for name in names}
+    out["_hit"] = np.zeros(n, dtype=bool)
+    colon = pc.fill_null(pc.match_substring(text, ":"), False)
+    if not pc.any(colon).as_py():
+        return out
+    sub = text.filter(colon)
+    iso = _flag(pc.match_substring_regex(sub, _ISO_SECONDS))
+    fields: dict[str, list] = {name: [] for name in names}
+    hits = []
+    if iso.any():
+        plain = sub.filter(pa.array(iso))
+        untaken = pa.repeat(pa.scalar("", text.type), len(plain))  # a group not taking part
+        for name in names:
+            cut = _ISO_CUTS.get(name)
+            fields[name].append(pc.utf8_slice_codeunits(plain, *cut) if cut else untaken)
+        hits.append(np.ones(len(plain), dtype=bool))
+    if not iso.all():
+        found = pc.extract_regex(sub.filter(pa.array(~iso)), _TIME)
+        for name in names:
+            fields[name].append(pc.struct_field(found, name))
+        hits.append(_flag(pc.is_valid(found)))
+    # Back in the order of the values with a colon: ISO ones first in the chunks, then the rest.
+    where = np.empty(len(sub), dtype=np.int64)
+    where[iso] = np.arange(int(iso.sum()))
+    where[~iso] = int(iso.sum()) + np.arange(int((~iso).sum()))
+    where = pa.array(where)
+    for name in names:
+        chunks = pa.chunked_array([f.cast(text.type) for f in fields[name]], text.type)
+        out[name] = pc.replace_with_mask(out[name], colon,
+                                         pc.take(chunks, where).combine_chunks())
+    hit = np.zeros(n, dtype=bool)
+    hit[colon.to_numpy(zero_copy_only=False)] = np.concatenate(hits)[where.to_numpy()]
+    out["_hit"] = hit
+    return out
 
 
 def _choose_order(parts: dict, month_first: np.ndarray) -> tuple[np.ndarray, ...]:

@@ -319,8 +319,11 @@ def _syntax(texts: pa.Array, fast_path: bool) -> dict:
     slow = np.flatnonzero(todo & ~fast)
     if len(slow):
         values, domains, locals_ = [None] * len(slow), [None] * len(slow), [None] * len(slow)
+        seen: dict[str, tuple] = {}  # a repeated text is validated once
         for j, text in enumerate(texts.take(pa.array(slow)).to_pylist()):
-            v, d, why = _validate_one(text)
+            if text not in seen:
+                seen[text] = _validate_one(text)
+            v, d, why = seen[text]
             if why is None:
                 values[j], domains[j], locals_[j] = v, d, v.rpartition("@")[0]
                 status[slow[j]] = _STATUS_CODE[VALID]
@@ -433,10 +436,14 @@ def normalise_emails(raw: pd.Series, providers: dict | None = None) -> pd.DataFr
 
 def _normalise(raw: pd.Series, providers: dict | None, *, fast_path: bool = True) -> pd.DataFrame:
     rules = merge_provider_rules(_built_in_rules(), providers)
-    text = raw.astype(pd.StringDtype("pyarrow"))
-    codes, uniques = pd.factorize(text, use_na_sentinel=True)
-    codes = np.asarray(codes, dtype=np.int64)
-    texts = pc.utf8_trim_whitespace(_arrow_strings(uniques))
+    # Each present value is read where it stands: addresses are nearly all distinct, so
+    # hashing them to find repeats costs more than it saves. The slow path below still
+    # sees each distinct text once.
+    text = _arrow_strings(raw.astype(pd.StringDtype("pyarrow")))
+    present = text.is_valid().to_numpy(zero_copy_only=False)
+    codes = np.full(len(text), -1, dtype=np.int64)
+    codes[present] = np.arange(int(present.sum()), dtype=np.int64)
+    texts = pc.utf8_trim_whitespace(text if present.all() else text.filter(pa.array(present)))
     found = _syntax(texts, fast_path)
     _mailboxes(found, rules)
     for name in ("value", "domain"):  # only valid addresses and placeholders keep them
@@ -446,7 +453,7 @@ def _normalise(raw: pd.Series, providers: dict | None, *, fast_path: bool = True
 
 
 def _arrow_strings(uniques) -> pa.Array:
-    """The distinct values from pandas.factorize as one Arrow large_string array."""
+    """The values of a pandas Series or Index as one Arrow large_string array."""
     arr = pa.array(uniques.array)
     if isinstance(arr, pa.ChunkedArray):
         arr = arr.combine_chunks() if arr.num_chunks else pa.array([], arr.type)
@@ -457,8 +464,12 @@ def _gather(found: dict, codes: np.ndarray, index: pd.Index) -> pd.DataFrame:
     """Spread per-distinct results over the records (code -1: missing record)."""
     n = len(found["status"])
     rows = pa.array(np.where(codes < 0, n, codes).astype(np.int32))
+    in_place = n == len(codes)  # every record has a value, in its own row: nothing to move
     columns = {}
     for name in ("value", "mailbox_key", "domain"):
+        if in_place:
+            columns[name] = found[name].cast(_LARGE)
+            continue
         arr = pa.concat_arrays([found[name].cast(_LARGE), pa.nulls(1, _LARGE)])
         columns[name] = arr.take(rows)
     for name, labels in (("status", _STATUSES), ("reason", list(REASONS))):

@@ -8,9 +8,10 @@ display forms, folded keys, the family core without particles, a nickname root a
 phonetic code, plus a status and reason per record. Every rule and its source is listed in
 docs/normalisation.md ("Names").
 
-The work runs once per distinct value (``on_distinct``) with Arrow compute kernels; only the
-split of a full name (``name_parts.split_full_name``) and the phonetic code (jellyfish) call
-Python once per distinct value.
+The work runs once per distinct value (``on_distinct``) with Arrow compute kernels. The split
+of a full name runs array-wise for plainly written names (``name_split``) and calls
+``name_parts.split_full_name`` only for the rest; the phonetic code (jellyfish) calls Python
+once per distinct key.
 """
 
 from __future__ import annotations
@@ -38,8 +39,8 @@ from resolve.normalise.name_parts import (
     PLACEHOLDER_WORDS,
     SUFFIX_PATTERN,
     TITLE_PATTERN,
-    split_full_name,
 )
+from resolve.normalise.name_split import split_full_names
 from resolve.normalise.textkeys import (
     distinct_codes,
     gather,
@@ -107,7 +108,7 @@ def normalise_names(
     g_codes, g_values = _distinct(given, n)
     f_codes, f_values = _distinct(family, n)
     g_extra = f_extra = suffix_extra = strings([])
-    keep_case = np.zeros(0, dtype=bool)
+    g_keep = f_keep = np.zeros(0, dtype=bool)
     if full is not None:
         blank_g = _blank(g_values)[g_codes]
         blank_f = _blank(f_values)[f_codes]
@@ -115,22 +116,29 @@ def normalise_names(
         use_full = blank_g & blank_f & ~_blank(u_values)[u_codes]
         if use_full.any():
             # Split each distinct full name once; its parts join the distinct given and
-            # family values as extra entries, so no string is handled per record.
+            # family values as extra entries, so no string is handled per record. Many
+            # full names share a given (or family) part, and a part's result depends only
+            # on its text, its casing flag and (given parts) the suffix cut from the full
+            # name, so each distinct combination is one extra entry.
             used = np.unique(u_codes[use_full])
             split = _split_full_names(pc.take(u_values, pa.array(used)))
             slot = np.searchsorted(used, u_codes[use_full])
+            keep_case = split["keep_case"]
+            g_rows, g_first = _distinct_rows(split["given_part"], keep_case, split["suffix"])
+            f_rows, f_first = _distinct_rows(split["family_part"], keep_case)
             g_codes = g_codes.copy()
             f_codes = f_codes.copy()
-            g_codes[use_full] = len(g_values) + slot
-            f_codes[use_full] = len(f_values) + slot
-            g_extra, f_extra = split["given_part"], split["family_part"]
-            keep_case = split["keep_case"]
-            suffix_extra = split["suffix"]
+            g_codes[use_full] = len(g_values) + g_rows[slot]
+            f_codes[use_full] = len(f_values) + f_rows[slot]
+            g_extra = pc.take(split["given_part"], pa.array(g_first))
+            suffix_extra = pc.take(split["suffix"], pa.array(g_first))
+            f_extra = pc.take(split["family_part"], pa.array(f_first))
+            g_keep, f_keep = keep_case[g_first], keep_case[f_first]
     # Parts cut from a full name written in mixed case keep the casing of the full name.
     gp = _given_parts(pa.concat_arrays([g_values, g_extra]),
-                      np.concatenate([np.zeros(len(g_values), dtype=bool), keep_case]))
+                      np.concatenate([np.zeros(len(g_values), dtype=bool), g_keep]))
     fp = _family_parts(pa.concat_arrays([f_values, f_extra]),
-                       np.concatenate([np.zeros(len(f_values), dtype=bool), keep_case]))
+                       np.concatenate([np.zeros(len(f_values), dtype=bool), f_keep]))
     # A suffix written in a full name ("John Smith Jr") was cut off by the split.
     tail = len(g_values)
     gp["suffix"] = pa.concat_arrays(
@@ -149,23 +157,35 @@ def _distinct(values: pd.Series | None, n: int) -> tuple[np.ndarray, pa.Array]:
     return codes, to_arrow(uniques)
 
 
+def _distinct_rows(texts: pa.Array, *more) -> tuple[np.ndarray, np.ndarray]:
+    """Distinct combinations of aligned columns: (code per row, first row of each code).
+
+    ``texts`` and any further Arrow string columns are dictionary-encoded (null is a value
+    of its own); numpy bool columns are taken as they are.
+    """
+    key = np.zeros(len(texts), dtype=np.int64)
+    for column in (texts, *more):
+        if isinstance(column, np.ndarray):
+            codes, width = column.astype(np.int64), 2
+        else:
+            encoded = pc.dictionary_encode(column)
+            width = len(encoded.dictionary) + 1
+            codes = pc.fill_null(encoded.indices, width - 1).to_numpy(zero_copy_only=False)
+        key = key * width + codes
+    rows, uniques = pd.factorize(key)
+    first = np.empty(len(uniques), dtype=np.int64)
+    first[rows[::-1]] = np.arange(len(rows) - 1, -1, -1)
+    return np.asarray(rows, dtype=np.int64), first
+
+
 def _blank(values: pa.Array) -> np.ndarray:
     """True for null or white-space-only values."""
     return pc.is_null(tidy(values)).to_numpy(zero_copy_only=False)
 
 
 def _split_full_names(values: pa.Array) -> dict[str, pa.Array]:
-    """Split each distinct full name (Python, once per distinct value)."""
-    texts = values.to_pylist()
-    rows = [split_full_name(v) if v else (None, None, None) for v in texts]
-    given_part, family_part, suffix = zip(*rows) if rows else ((), (), ())
-    return {
-        "keep_case": np.array([bool(v) and not v.isupper() and not v.islower() for v in texts],
-                              dtype=bool),
-        "given_part": strings(list(given_part)),
-        "family_part": strings(list(family_part)),
-        "suffix": strings(list(suffix)),
-    }
+    """Split each distinct full name: array-wise for plain names, else in Python per value."""
+    return split_full_names(values)
 
 
 def _strip_suffix(arr: pa.Array) -> tuple[pa.Array, pa.Array]:

@@ -192,6 +192,11 @@ def normalise_national_ids(
     if isinstance(ctry, str) and isinstance(types, str):
         one = [(ctry, types)]
         coded = on_distinct(raw, lambda v: _normalise_distinct(v, np.zeros(len(v), np.int32), one))
+    elif isinstance(types, str) and not _has_bar(ctry):
+        # One explicit type (or none) for all: pair the values with the country alone
+        # rather than build "country|type" text for every record.
+        coded = on_distinct(raw, lambda frame: _normalise_with_countries(frame, types),
+                            extra=ctry)
     else:
         coded = on_distinct(raw, _normalise_with_contexts, extra=ctry + "|" + types)
     # Low-cardinality columns travel as integer codes through on_distinct and become text
@@ -224,6 +229,19 @@ def national_id_keys(ids: pd.DataFrame) -> pd.Series:
     IDs shared across records.
     """
     return ids["id_type"].astype(_STRING).str.cat(ids["value"].astype(_STRING), sep=":")
+
+
+def _has_bar(values: pd.Series) -> bool:
+    """True when some value holds "|", the separator of the "country|type" contexts."""
+    found = pc.match_substring(pa.array(values.astype(_STRING).array), "|")
+    return bool(pc.any(found).as_py())
+
+
+def _normalise_with_countries(frame: pd.DataFrame, id_type: str) -> pd.DataFrame:
+    """`_normalise_with_contexts` when every record has the same explicit type (or none)."""
+    codes, countries = pd.factorize(frame["extra"])
+    pairs = [(str(c), id_type) for c in countries]
+    return _normalise_distinct(frame["value"], codes.astype(np.int32), pairs)
 
 
 def _normalise_with_contexts(frame: pd.DataFrame) -> pd.DataFrame:

@@ -138,16 +138,21 @@ def normalise_phones(raw: pd.Series, region: pd.Series | str = "US") -> pd.DataF
 def _normalise(raw: pd.Series, region, *, fast_path: bool = True) -> pd.DataFrame:
     """`normalise_phones`, with a switch that sends everything to the reference library."""
     regions, region_names = _region_codes(raw, region)
-    text = raw.astype(pd.StringDtype("pyarrow"))
-    text_codes, uniques = pd.factorize(text, use_na_sentinel=True)
-    text_codes = np.asarray(text_codes, dtype=np.int64)
-    prepared = _prepare(_arrow_strings(uniques))
+    # The first pass reads each present value where it stands: phones are nearly all
+    # distinct, so hashing the text to find repeats costs more than it saves. Repeats are
+    # met one step later, where texts with the same digits share one number to parse.
+    text = _arrow_strings(raw.astype(pd.StringDtype("pyarrow")))
+    present = text.is_valid().to_numpy(zero_copy_only=False)
+    text_codes = np.full(len(text), -1, dtype=np.int64)
+    text_codes[present] = np.arange(int(present.sum()), dtype=np.int64)
+    prepared_texts = text if present.all() else text.filter(pa.array(present))
+    prepared = _prepare(prepared_texts)
     if not fast_path:
         prepared["kind"][prepared["kind"] == _SIMPLE_KIND] = _OTHER
 
     # Work once per distinct (digits as written, default region): "(415) 555-0123" and
     # "415.555.0123" are one number to parse.
-    number_codes, number_text = _number_keys(prepared)
+    number_codes, number_text = _number_keys(prepared, prepared_texts)
     record_number = np.append(number_codes, -1)[text_codes]  # missing records (-1) stay -1
     if len(region_names) == 1:  # every number code is used by some record already
         pair_codes, pair_keys = record_number, np.arange(len(number_text), dtype=np.int64)
@@ -180,17 +185,19 @@ _BASE11_PAIRS = [
 
 
 def _arrow_strings(uniques) -> pa.Array:
-    """The distinct values from pandas.factorize as one Arrow large_string array."""
+    """The values of a pandas Series or Index as one Arrow large_string array."""
     arr = pa.array(uniques.array)
     if isinstance(arr, pa.ChunkedArray):
         arr = arr.combine_chunks() if arr.num_chunks else pa.array([], arr.type)
     return arr.cast(pa.large_string())
 
 
-def _number_keys(prepared: dict) -> tuple[np.ndarray, np.ndarray]:
+def _number_keys(prepared: dict, texts: pa.Array) -> tuple[np.ndarray, np.ndarray]:
     """A code per distinct text, shared by plainly written texts with the same digits and plus.
 
-    Returns the code of every text and, per code, one text that carries it.
+    Returns the code of every text and, per code, one text that carries it. ``texts`` are
+    the raw texts (repeats allowed): repeats of a text that is not plainly written share
+    one code, so the reference library sees each distinct one once.
     """
     kind, matrix, count, plus = (prepared[k] for k in ("kind", "matrix", "count", "plus"))
     n = len(kind)
@@ -210,8 +217,14 @@ def _number_keys(prepared: dict) -> tuple[np.ndarray, np.ndarray]:
         first = np.empty(len(uniques), dtype=np.int64)
         first[number[::-1]] = same_digits[::-1]  # any text of the code will do; keep the first
     others = np.setdiff1d(np.arange(n), same_digits, assume_unique=True)
-    codes[others] = len(first) + np.arange(len(others))
-    return codes, np.concatenate([first, others])
+    if len(others) == 0:
+        return codes, first
+    encoded = pc.dictionary_encode(texts.take(pa.array(others)))
+    repeat = encoded.indices.to_numpy(zero_copy_only=False).astype(np.int64)
+    carrier = np.empty(len(encoded.dictionary), dtype=np.int64)
+    carrier[repeat[::-1]] = others[::-1]  # the first text of each distinct value
+    codes[others] = len(first) + repeat
+    return codes, np.concatenate([first, carrier])
 
 
 def _region_codes(raw: pd.Series, region: pd.Series | str) -> tuple[np.ndarray, list[str]]:

@@ -213,10 +213,16 @@ def parse_streets(values: pa.Array, countries: pa.Array) -> dict:
         return full
     quick = _parse_simple(*(pc.filter(simple[k], is_simple) for k in ("num", "rest", "des", "id")))
     n = len(values)
+    # Each line's place among the plain lines, or after them among the others: one take
+    # puts both sets of results back in line order.
+    where = np.empty(n, dtype=np.int64)
+    where[easy] = np.arange(int(easy.sum()))
+    where[~easy] = int(easy.sum()) + np.arange(int((~easy).sum()))
+    where = pa.array(where)
     out = {}
     for name in _FIELDS:
-        merged = pc.replace_with_mask(pa.nulls(n, STRING), is_simple, quick[name])
-        out[name] = pc.replace_with_mask(merged, hard, full[name])
+        both = pa.chunked_array([quick[name].cast(STRING), full[name].cast(STRING)], STRING)
+        out[name] = pc.take(both, where).combine_chunks()
     for name in ("present", "po_box", "state"):
         merged = np.empty(n, dtype=full[name].dtype)
         merged[easy] = quick[name]
