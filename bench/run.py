@@ -44,6 +44,9 @@ def measure_one(records: int, seed: int) -> dict:
     from resolve.pipeline import RunSettings, run_pipeline
     from resolve.project import Project
 
+    from resolve.ingest.memory import keep_freed_memory
+
+    keep_freed_memory()  # as `resolve run` does
     data = _generate(records, seed)
     project_dir = CACHE / f"project-{records}-{seed}"
     if project_dir.exists():

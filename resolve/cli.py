@@ -162,6 +162,9 @@ def run(inputs, project, mapping, encoding, delimiter, default_country, today, a
                            model_path=model_path, rules_path=rules_path, encoding=encoding,
                            delimiter=delimiter)
     progress = None if quiet else (lambda stage: click.echo(f"  {stage}...", err=True))
+    from resolve.ingest.memory import keep_freed_memory
+
+    keep_freed_memory()  # a batch run: reuse freed buffers instead of faulting pages again
     summary = run_pipeline(list(inputs), project, mapping, settings, progress=progress)
     if not quiet:
         click.echo(format_run_summary(summary))
