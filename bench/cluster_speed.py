@@ -6,6 +6,8 @@ with one or more records, households sharing an address and sometimes a landline
 low-probability candidate pairs, the per-field levels resolve.compare would write, and one
 call-centre number on 1% of records that only the hub list knows about, so that every step
 does realistic work. ``--all`` also times diagnostics, households, groups and the queue.
+To time those stages and the saving of a run on the fixed 1M-record run folder, with a check
+of every output against its reference tables, use ``bench/downstream_speed.py``.
 """
 
 from __future__ import annotations

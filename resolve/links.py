@@ -25,6 +25,7 @@ from dataclasses import dataclass
 import numpy as np
 import pandas as pd
 import pyarrow as pa
+import pyarrow.compute as pc
 
 from resolve.compare.align import WEAK_PHONE_TYPES
 from resolve.compare.levels import field_spec
@@ -105,7 +106,10 @@ def as_thresholds(thresholds: Thresholds | Mapping[str, float] | None) -> Thresh
 
 def _kind_codes(kind: pd.Series) -> np.ndarray:
     """Position of each kind in `_KINDS` (-1 for any other kind), via the distinct kinds."""
-    codes, uniques = pd.factorize(kind)
+    if isinstance(kind.dtype, pd.CategoricalDtype):  # the codes are there already
+        codes, uniques = kind.cat.codes.to_numpy(), kind.cat.categories
+    else:
+        codes, uniques = pd.factorize(kind)
     lookup = np.array([_KINDS.index(k) if k in _KINDS else -1 for k in uniques] + [-1], dtype=np.int64)
     return lookup[codes]
 
@@ -115,11 +119,18 @@ def hub_rows(identifiers: pd.DataFrame, hubs: pd.DataFrame | None) -> np.ndarray
     found = np.zeros(len(identifiers), dtype=bool)
     if hubs is None or len(hubs) == 0:
         return found
-    kind = identifiers["kind"]
+    # one pass over the keys finds the few rows holding any hub key; (kind, key) is then
+    # checked on those rows only
+    key = identifiers["key"]
+    hub_keys = hubs["key"].astype(key.dtype)
+    rows = np.arange(len(identifiers))
+    if not hub_keys.isna().any():
+        rows = np.flatnonzero(key.isin(hub_keys.unique()).to_numpy(dtype=bool))
+    kind = identifiers["kind"].iloc[rows]
+    key = key.iloc[rows]
     for hub_kind, keys in hubs.groupby(hubs["kind"].astype(str))["key"]:
-        found |= kind.isin([hub_kind]).to_numpy(dtype=bool) & identifiers["key"].isin(
-            keys.astype(identifiers["key"].dtype)
-        ).to_numpy(dtype=bool)
+        is_hub = kind.isin([hub_kind]).to_numpy(dtype=bool) & key.isin(keys.astype(key.dtype)).to_numpy(dtype=bool)
+        found[rows[is_hub]] = True
     return found
 
 
@@ -138,32 +149,42 @@ def shareable_identifiers(identifiers: pd.DataFrame, hubs: pd.DataFrame | None =
             f"The identifier table lacks {', '.join(sorted(missing))}; "
             "build it with resolve.normalise before linking."
         )
+    from resolve.clusters.codes import isin, text_codes  # here: resolve.clusters imports this module
+
     kind = _kind_codes(identifiers["kind"])
-    key_code, _ = pd.factorize(identifiers["key"])
-    keep = identifiers["status"].isin(SHARED_STATUSES).to_numpy(dtype=bool) & (key_code >= 0) & (kind >= 0)
+    key_code, _ = text_codes(identifiers["key"])  # factorised once per key column and shared
+    keep = isin(identifiers["status"], SHARED_STATUSES) & (key_code >= 0) & (kind >= 0)
     keep &= ~hub_rows(identifiers, hubs)
     row = np.flatnonzero(keep)
     rec = identifiers["rec"].to_numpy(dtype=np.int64)[row]
-    value = key_code[row].astype(np.int64) * len(_KINDS) + kind[row]
+    value = key_code[row] * len(_KINDS) + kind[row]
     landline = np.zeros(len(row), dtype=bool)
     if "detail" in identifiers.columns:
-        detail_code, details = pd.factorize(identifiers["detail"])
+        detail_code, details = text_codes(identifiers["detail"])
         names = pd.Series(details, dtype="string").str.lower().str.replace(r"[\s\-]+", "_", regex=True)
         weak = np.append(names.isin(LANDLINE_TYPES).to_numpy(dtype=bool), False)
         landline = weak[detail_code[row]] & (kind[row] == _KINDS.index("phone"))
     return pd.DataFrame(
-        {"row": row, "rec": rec, "kind": kind[row].astype(np.int8), "landline": landline, "value_id": value}
+        {"row": row, "rec": rec, "kind": kind[row].astype(np.int8), "landline": landline, "value_id": value},
+        copy=False,  # fresh arrays
     )
 
 
 def identifier_labels(identifiers: pd.DataFrame, shareable: pd.DataFrame) -> pd.Series:
     """Readable ``kind:key`` text for rows of a `shareable_identifiers` table (landlines and
     service lines written ``landline:``), aligned with ``shareable``."""
-    names = np.array(_KINDS + ("landline",), dtype=object)
     kind = np.where(shareable["landline"].to_numpy(dtype=bool), len(_KINDS), shareable["kind"].to_numpy())
-    prefix = pd.Series(names[kind], dtype="string")
-    key = identifiers["key"].astype("string").iloc[shareable["row"].to_numpy()].reset_index(drop=True)
-    return (prefix + ":" + key).set_axis(shareable.index)
+    prefix = pa.array([f"{k}:" for k in _KINDS + ("landline",)], type=pa.string()).take(pa.array(kind))
+    rows = pa.array(shareable["row"].to_numpy(dtype=np.int64))
+    key = identifiers["key"].array
+    if isinstance(key, pd.arrays.ArrowExtensionArray):  # take from the Arrow data, no copy of the column
+        key = key.__arrow_array__().take(rows)
+    else:
+        key = pa.array(identifiers["key"].astype("string").to_numpy(dtype=object), type=pa.string()).take(rows)
+    text = pc.binary_join_element_wise(prefix, pc.cast(key, pa.string()), "")
+    if isinstance(text, pa.ChunkedArray):
+        text = text.combine_chunks()
+    return pd.Series(pd.arrays.ArrowStringArray(text), index=shareable.index)
 
 
 MAX_HOLDERS = 64

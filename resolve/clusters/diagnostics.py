@@ -31,6 +31,7 @@ import networkx as nx
 import numpy as np
 import pandas as pd
 
+from resolve.clusters import graphs
 from resolve.clusters.sharing import entity_codes
 from resolve.links import HOUSEHOLD, NONE, REVIEW, SAME_PERSON, SHARED_IDENTITY
 
@@ -147,55 +148,61 @@ def entity_diagnostics(
 
 def _examine(nodes, edges, conflicts, record_id, weak, large, min_modularity) -> dict:
     """Bridges, articulation points and a split suggestion for one entity's graph."""
-    graph = nx.Graph()
-    graph.add_nodes_from(sorted(int(n) for n in nodes))
     ordered = sorted(zip(*edges))
-    graph.add_edges_from((u, v, {"prob": p}) for u, v, p in ordered)
+    adj = graphs.adjacency(sorted(int(n) for n in nodes), ordered)
     rid = lambda n: record_id[n]  # noqa: E731 - short local lookup
-    bridges = sorted((_pair_text(rid(u), rid(v)), u, v) for u, v in nx.bridges(graph))
-    points = sorted(rid(n) for n in nx.articulation_points(graph))
+    points, found_bridges = graphs.cut_points_and_bridges(adj)
+    bridges = sorted((_pair_text(rid(u), rid(v)), u, v) for u, v in found_bridges)
     found = dict.fromkeys(COLUMNS[11:])
-    found.update(bridges=";".join(t for t, _, _ in bridges), articulation_points=";".join(points))
-    groups = _suggest(graph, conflicts, bridges, record_id, weak, large, min_modularity)
+    found.update(bridges=";".join(t for t, _, _ in bridges),
+                 articulation_points=";".join(sorted(rid(n) for n in points)))
+    groups = _suggest(adj, ordered, conflicts, bridges, points, record_id, weak, large, min_modularity)
     if groups is None:
         return found
     kind, parts = groups
     named = sorted((sorted(rid(n) for n in part) for part in parts), key=lambda p: p[0])
     side = {n: i for i, part in enumerate(parts) for n in part}
     cut = sorted(
-        (_pair_text(rid(u), rid(v)), d["prob"]) for u, v, d in graph.edges(data=True) if side[u] != side[v]
+        (_pair_text(rid(u), rid(v)), p) for u in adj for v, p in adj[u].items() if u < v and side[u] != side[v]
     )
     largest = max(parts, key=lambda p: (len(p), -min(p)))
     found.update(
         split_kind=kind,
         split_groups=";".join(",".join(p) for p in named),
-        separated_records=";".join(sorted(rid(n) for n in graph.nodes if n not in largest)),
+        separated_records=";".join(sorted(rid(n) for n in adj if n not in largest)),
         cut_links=";".join(t for t, _ in cut),
         cut_weight=float(sum(p for _, p in cut)),
     )
     return found
 
 
-def _suggest(graph, conflicts, bridges, record_id, weak, large, min_modularity):
+def _nx_graph(adj: graphs.Adjacency, ordered) -> nx.Graph:
+    """The entity's graph in networkx, built in the same order as its adjacency."""
+    graph = nx.Graph()
+    graph.add_nodes_from(adj)
+    graph.add_edges_from((u, v, {"prob": p}) for u, v, p in ordered)
+    return graph
+
+
+def _suggest(adj, ordered, conflicts, bridges, points, record_id, weak, large, min_modularity):
     """Return (kind, list of node sets) or None, by the rules in the module docstring."""
-    for s, t in conflicts:
-        if nx.has_path(graph, s, t):
-            _, (side_s, side_t) = nx.minimum_cut(graph, s, t, capacity="prob")
-            return "conflict", [set(side_s), set(side_t)]
-    weak_bridges = sorted((graph[u][v]["prob"], text, u, v) for text, u, v in bridges if graph[u][v]["prob"] < weak)
+    if conflicts:
+        part_of = {n: i for i, part in enumerate(graphs.components(adj)) for n in part}
+        for s, t in conflicts:
+            if s in part_of and t in part_of and part_of[s] == part_of[t]:  # a path joins them
+                _, (side_s, side_t) = nx.minimum_cut(_nx_graph(adj, ordered), s, t, capacity="prob")
+                return "conflict", [set(side_s), set(side_t)]
+    weak_bridges = sorted((adj[u][v], text, u, v) for text, u, v in bridges if adj[u][v] < weak)
     if weak_bridges:
         _, _, u, v = weak_bridges[0]
-        trimmed = graph.copy()
-        trimmed.remove_edge(u, v)
-        return "weak_bridge", [set(c) for c in nx.connected_components(trimmed)]
-    if graph.number_of_nodes() > large and graph.number_of_edges():
-        communities, quality = community_split(graph)
+        return "weak_bridge", graphs.components(adj, without_edge=(u, v))
+    if len(adj) > large and ordered:
+        communities, quality = community_split(_nx_graph(adj, ordered))
         if len(communities) >= 2 and quality >= min_modularity:
             return "communities", communities
     best = None
-    for point in nx.articulation_points(graph):
-        rest = graph.subgraph(n for n in graph.nodes if n != point)
-        parts = sorted((set(c) for c in nx.connected_components(rest)), key=lambda c: (-len(c), min(c)))
+    for point in points:
+        parts = sorted(graphs.components(adj, without_node=point), key=lambda c: (-len(c), min(c)))
         if sum(len(p) >= 2 for p in parts) < 2:
             continue
         rank = (-len(parts[1]), record_id[point])
@@ -203,7 +210,7 @@ def _suggest(graph, conflicts, bridges, record_id, weak, large, min_modularity):
             best = (rank, point, parts)
     if best is not None:
         _, point, parts = best
-        pull = [sum(graph[point][n]["prob"] for n in graph[point] if n in p) for p in parts]
+        pull = [sum(adj[point][n] for n in adj[point] if n in p) for p in parts]
         home = max(range(len(parts)), key=lambda i: (pull[i], len(parts[i]), -min(parts[i])))
         parts[home] = parts[home] | {point}
         return "bridge_record", parts

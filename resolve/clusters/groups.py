@@ -23,10 +23,11 @@ from __future__ import annotations
 
 import numpy as np
 import pandas as pd
+import pyarrow as pa
 
 from resolve.clusters.households import household_labels
-from resolve.clusters.keys import components, hash_text, join_runs, names_per_label, text_rank
-from resolve.clusters.sharing import entity_codes, entity_values
+from resolve.clusters.keys import arrow_text, components, index_rank, join_runs_arrow, names_per_label, text_rank
+from resolve.clusters.sharing import entity_codes, entity_values, record_hashes
 from resolve.links import pairs_within_values
 
 GROUP_PREFIX = "G"
@@ -52,7 +53,7 @@ def build_groups(
     and ``jaccard`` (shared values over all values the two hold).
     Household membership comes from the household links in ``links``.
     """
-    code, entity_ids, record_id = entity_codes(entities)
+    code, entity_ids, _ = entity_codes(entities)
     n_ent = len(entity_ids)
     values, shared = entity_values(code, identifiers, hubs)
     vcode, _ = pd.factorize(shared["value_id"])
@@ -71,7 +72,7 @@ def build_groups(
 
     rec_group = group_of[code]
     in_group = rec_group >= 0
-    names = names_per_label(rec_group[in_group], hash_text(pd.Series(record_id[in_group])), prefix)
+    names = names_per_label(rec_group[in_group], record_hashes(entities)[in_group], prefix)
 
     hh, _ = household_labels(code, n_ent, links)
     stats = _group_stats(group_of, hh, shared, members)
@@ -85,19 +86,23 @@ def build_groups(
         GROUP_KINDS[3],
     )
     stats["kind"] = kind
+    # rows sorted by (group_id, entity_id) text, by their ranks; each entity is in one group
+    name_text = arrow_text(names)
+    name_at = np.searchsorted(names.index.to_numpy(), group_of[members])
+    members = members[np.lexsort((index_rank(entity_ids)[members], text_rank(name_text)[name_at]))]
     g = group_of[members]
-    out = pd.DataFrame(
+    at = np.searchsorted(stats.index.to_numpy(), g)
+    groups = pd.DataFrame(
         {
-            "entity_id": entity_ids[members].astype("string"),
-            "group_id": pd.Series(g).map(names).astype("string").to_numpy(),
-            "group_kind": pd.Series(g).map(stats["kind"]).astype("string").to_numpy(),
-            "n_entities": pd.Series(g).map(stats["n"]).to_numpy(dtype=np.int64),
-            "n_shared_values": pd.Series(g).map(stats["n_values"]).to_numpy(dtype=np.int64),
+            "entity_id": pd.arrays.ArrowStringArray(arrow_text(entity_ids).take(pa.array(members))),
+            "group_id": pd.arrays.ArrowStringArray(name_text.take(pa.array(np.searchsorted(names.index, g)))),
+            "group_kind": pd.array(stats["kind"].to_numpy(dtype=object)[at], dtype="string"),
+            "n_entities": stats["n"].to_numpy(dtype=np.int64)[at],
+            "n_shared_values": stats["n_values"].to_numpy(dtype=np.int64)[at],
         }
     )
-    overlaps["group_id"] = pd.array(pd.Series(overlaps.pop("group").to_numpy()).map(names), dtype="string")
-    out = out.astype({c: "string" for c in ("entity_id", "group_id", "group_kind")})
-    groups = out.sort_values(["group_id", "entity_id"]).reset_index(drop=True)
+    pair_group = np.searchsorted(names.index.to_numpy(), overlaps.pop("group").to_numpy())
+    overlaps["group_id"] = pd.arrays.ArrowStringArray(name_text.take(pa.array(pair_group)))
     return groups, overlaps
 
 
@@ -131,31 +136,32 @@ def _overlaps(values, shared, group_of, entity_ids, max_per_value) -> pd.DataFra
             {"group": "int64", "n_shared": "int64", "jaccard": "float64"}
         )
     e = small["e"].to_numpy()
-    rank = text_rank(np.asarray(entity_ids, dtype=object))
+    rank = index_rank(entity_ids)
     swap = rank[e[i]] > rank[e[j]]
     ea, eb = np.where(swap, e[j], e[i]), np.where(swap, e[i], e[j])
     # rank the distinct values by their text, then sort rows by (entity a, entity b, value)
     _, first, value_code = np.unique(small["value_id"].to_numpy(), return_index=True, return_inverse=True)
-    label = small["label"].to_numpy(dtype=object)
-    value_rank = text_rank(label[first])[value_code]
+    label = arrow_text(small["label"])
+    value_rank = text_rank(label.take(pa.array(first)))[value_code]
     pair = rank[ea] * len(entity_ids) + rank[eb]
     if len(entity_ids) ** 2 * (len(first) + 1) < 2**62:  # one int64 sort key when it fits
         order = np.argsort(pair * (len(first) + 1) + value_rank[i], kind="stable")
     else:
         order = np.lexsort((value_rank[i], pair))
     ea, eb, i, pair = ea[order], eb[order], i[order], pair[order]
-    _, joined = join_runs(pair, label[i])  # rows are in runs of one entity pair
+    _, joined = join_runs_arrow(pair, label.take(pa.array(i)))  # rows are in runs of one entity pair
     starts = np.flatnonzero(np.concatenate([[True], pair[1:] != pair[:-1]]))
     n_shared = np.diff(np.append(starts, len(pair)))
     ea, eb = ea[starts], eb[starts]
     sizes = np.bincount(values["e"].to_numpy(), minlength=len(entity_ids))
+    ids = arrow_text(entity_ids)
     out = pd.DataFrame(
         {
-            "entity_a": pd.array(np.asarray(entity_ids, dtype=object)[ea], dtype="string"),
-            "entity_b": pd.array(np.asarray(entity_ids, dtype=object)[eb], dtype="string"),
+            "entity_a": pd.arrays.ArrowStringArray(ids.take(pa.array(ea))),
+            "entity_b": pd.arrays.ArrowStringArray(ids.take(pa.array(eb))),
             "group": group_of[ea],
             "n_shared": n_shared.astype(np.int64),
-            "shared_values": pd.array(joined, dtype="string"),
+            "shared_values": pd.arrays.ArrowStringArray(joined),
             "jaccard": n_shared / (sizes[ea] + sizes[eb] - n_shared),
         }
     )

@@ -13,9 +13,11 @@ from __future__ import annotations
 
 import numpy as np
 import pandas as pd
+import pyarrow as pa
 
-from resolve.clusters.keys import components, hash_text, names_per_label
-from resolve.clusters.sharing import entity_codes, entity_values, joined_per_group, values_in_common
+from resolve.clusters.keys import arrow_text, components, index_rank, names_per_label, text_rank
+from resolve.clusters.sharing import (NATIONAL_ID_KIND, entity_codes, entity_values, joined_per_group,
+                                      record_hashes, values_in_common)
 from resolve.links import HOUSEHOLD, REASONS
 
 HOUSEHOLD_PREFIX = "H"
@@ -75,7 +77,7 @@ def build_households(
     held by two or more of its entities, as ``kind:value``; <NA> unless ``identifiers`` or
     ``people`` are given).
     """
-    code, entity_ids, record_id = entity_codes(entities)
+    code, entity_ids, _ = entity_codes(entities)
     n_entities = len(entity_ids)
     label, edges = household_labels(code, n_entities, links)
     members = np.flatnonzero(label >= 0)
@@ -85,23 +87,30 @@ def build_households(
 
     rec_label = label[code]
     in_hh = rec_label >= 0
-    names = names_per_label(rec_label[in_hh], hash_text(pd.Series(record_id[in_hh])), prefix)
+    names = names_per_label(rec_label[in_hh], record_hashes(entities)[in_hh], prefix)
 
     evidence = _evidence(label[edges["ea"].to_numpy()], edges["reasons"])
 
+    # rows in (household_id, entity_id) text order, by their ranks; each entity is in one household
+    name_text = arrow_text(names)
+    name_rank = text_rank(name_text)
+    members = members[np.lexsort((index_rank(entity_ids)[members],
+                                  name_rank[np.searchsorted(names.index.to_numpy(), label[members])]))]
     group = label[members]
     out = pd.DataFrame(
         {
-            "entity_id": entity_ids[members].astype("string"),
-            "household_id": pd.Series(group).map(names).astype("string").to_numpy(),
+            "entity_id": pd.arrays.ArrowStringArray(arrow_text(entity_ids).take(pa.array(members))),
+            "household_id": pd.arrays.ArrowStringArray(
+                name_text.take(pa.array(np.searchsorted(names.index.to_numpy(), group)))),
             "size": np.bincount(group)[group],
             "evidence": pd.Series(group).map(evidence).astype("string").to_numpy(),
         }
     )
     common = []
     if identifiers is not None:
-        _, shared = entity_values(code, identifiers, hubs)
-        shared = shared[~shared["label"].str.startswith("national_id:").to_numpy(dtype=bool)]
+        # only members' values can be held in common, and national IDs never count here
+        _, shared = entity_values(code, identifiers, hubs, records=in_hh)
+        shared = shared[shared["kind"].to_numpy() != NATIONAL_ID_KIND]
         common.append(values_in_common(label, shared))
     if people is not None:
         rows = np.flatnonzero(in_hh)  # records of household members only
@@ -116,5 +125,4 @@ def build_households(
         out["shared_values"] = joined_per_group(pd.concat(common), "label", group).to_numpy()
     else:
         out["shared_values"] = pd.array([pd.NA] * len(out), dtype="string")
-    out = out.astype({c: "string" for c in ("entity_id", "household_id", "evidence", "shared_values")})
-    return out.sort_values(["household_id", "entity_id"]).reset_index(drop=True)
+    return out.astype({c: "string" for c in ("entity_id", "household_id", "evidence", "shared_values")})

@@ -16,6 +16,8 @@ import pyarrow.compute as pc
 from scipy.sparse import coo_matrix
 from scipy.sparse.csgraph import connected_components
 
+from resolve.clusters.codes import remembered
+
 DIGITS = 12
 """Hex digits in a name (48 bits); colliding names are lengthened to 16 digits."""
 
@@ -23,11 +25,21 @@ _BYTE_HEX = np.array([f"{i:02x}".encode() for i in range(256)], dtype="S2")
 
 
 def hash_text(values: pd.Series) -> np.ndarray:
-    """Return the 64-bit content hash (uint64) of each string in ``values`` (no missing values)."""
+    """Return the 64-bit content hash (uint64) of each string in ``values`` (no missing values).
+
+    Read-only; computed once per Arrow column (`resolve.clusters.codes.remembered`), since
+    entities, households and groups all name themselves from the same record IDs.
+    """
     if len(values) == 0:
         return np.zeros(0, dtype=np.uint64)
-    text = values.astype("string").to_numpy(dtype=object)
-    return pd.util.hash_array(text, categorize=False)
+
+    def compute():
+        text = values.astype("string").to_numpy(dtype=object)
+        hashes = pd.util.hash_array(text, categorize=False)
+        hashes.flags.writeable = False
+        return hashes
+
+    return remembered("hash_text", [values], compute)
 
 
 def _hex(hashes: np.ndarray, digits: int) -> pa.Array:
@@ -66,12 +78,46 @@ def names_per_label(labels: np.ndarray, record_hash: np.ndarray, prefix: str) ->
     return pd.Series(names_from_hashes(smallest.to_numpy(), prefix), index=smallest.index)
 
 
-def text_rank(texts: np.ndarray) -> np.ndarray:
+def arrow_text(texts) -> pa.Array:
+    """Text (array, Series, Index or Arrow data) as one contiguous Arrow string array; pandas
+    data already held in Arrow is not copied into Python objects."""
+    data = texts
+    if isinstance(texts, (pd.Series, pd.Index)) and isinstance(texts.array, pd.arrays.ArrowExtensionArray):
+        data = texts.array.__arrow_array__()
+    elif not isinstance(texts, (pa.Array, pa.ChunkedArray)):
+        data = pa.array(np.asarray(texts, dtype=object), type=pa.string())
+    return data.combine_chunks() if isinstance(data, pa.ChunkedArray) else data
+
+
+def text_rank(texts) -> np.ndarray:
     """Position of each text in sorted order, so that sorting by text is sorting by int."""
     rank = np.empty(len(texts), dtype=np.int64)
-    order = pc.sort_indices(pa.array(np.asarray(texts, dtype=object), type=pa.string()))
+    order = pc.sort_indices(arrow_text(texts))
     rank[order.to_numpy()] = np.arange(len(texts))
     return rank
+
+
+def index_rank(index: pd.Index) -> np.ndarray:
+    """`text_rank` of an index of IDs (read-only); computed once per Arrow-backed index, as
+    groups and the queue both order the same entity IDs."""
+
+    def compute():
+        rank = text_rank(index)
+        rank.flags.writeable = False
+        return rank
+
+    return remembered("text_rank", [index], compute)
+
+
+def join_runs_arrow(groups: np.ndarray, texts, sep: str = ";") -> tuple[np.ndarray, pa.Array]:
+    """`join_runs`, with the joined texts left as an Arrow string array."""
+    groups = np.asarray(groups)
+    if len(groups) == 0:
+        return groups, pa.array([], type=pa.string())
+    starts = np.flatnonzero(np.concatenate([[True], groups[1:] != groups[:-1]]))
+    values = arrow_text(texts)
+    offsets = pa.array(np.append(starts, len(groups)).astype(np.int32))
+    return groups[starts], pc.binary_join(pa.ListArray.from_arrays(offsets, values), pa.scalar(sep, values.type))
 
 
 def join_runs(groups: np.ndarray, texts, sep: str = ";") -> tuple[np.ndarray, np.ndarray]:
@@ -80,14 +126,8 @@ def join_runs(groups: np.ndarray, texts, sep: str = ";") -> tuple[np.ndarray, np
     Returns the distinct groups (one per run) and the joined text of each (object array).
     The joining runs in Arrow (list arrays and `binary_join`), not in a Python loop.
     """
-    groups = np.asarray(groups)
-    if len(groups) == 0:
-        return groups, np.zeros(0, dtype=object)
-    starts = np.flatnonzero(np.concatenate([[True], groups[1:] != groups[:-1]]))
-    values = texts if isinstance(texts, pa.Array) else pa.array(np.asarray(texts, dtype=object), type=pa.string())
-    offsets = pa.array(np.append(starts, len(groups)).astype(np.int32))
-    joined = pc.binary_join(pa.ListArray.from_arrays(offsets, values), sep)
-    return groups[starts], np.asarray(joined.to_numpy(zero_copy_only=False), dtype=object)
+    labels, joined = join_runs_arrow(groups, texts, sep)
+    return labels, np.asarray(joined.to_numpy(zero_copy_only=False), dtype=object)
 
 
 def _mix(x: np.ndarray) -> np.ndarray:
@@ -110,18 +150,28 @@ def member_names(group: np.ndarray, record_id: pd.Series, prefix: str) -> pd.Dat
     of the mixed sum of the members' record-ID hashes, so the key depends on the set of
     members only, not on their order; ``record_ids``, the sorted IDs joined by ';'; ``size``.
     """
-    group = np.asarray(group)
     ids = record_id.astype("string").reset_index(drop=True)
-    order = np.lexsort((text_rank(ids.to_numpy(dtype=object)), group))
-    labels, joined = join_runs(group[order], ids.to_numpy(dtype=object)[order])
-    starts = np.searchsorted(group[order], labels)
-    hashes = hash_text(ids)[order]
-    sums = np.add.reduceat(hashes, starts) if len(starts) else hashes[:0]
+    everyone = np.arange(len(ids))
+    return member_names_at(group, everyone, arrow_text(ids), text_rank(ids), hash_text(ids), prefix)
+
+
+def member_names_at(group: np.ndarray, recs: np.ndarray, texts: pa.Array, rank: np.ndarray,
+                    hashes: np.ndarray, prefix: str) -> pd.DataFrame:
+    """`member_names` for records given as positions ``recs`` into per-record arrays made once:
+    their IDs as Arrow ``texts``, the IDs' `text_rank` and their `hash_text` hashes."""
+    group = np.asarray(group)
+    recs = np.asarray(recs, dtype=np.int64)
+    order = recs[np.lexsort((rank[recs], group))]  # records by group, then by ID
+    by_group = np.sort(group, kind="stable")
+    labels, joined = join_runs_arrow(by_group, texts.take(pa.array(order)))
+    starts = np.searchsorted(by_group, labels)
+    ordered_hashes = np.asarray(hashes)[order]
+    sums = np.add.reduceat(ordered_hashes, starts) if len(starts) else ordered_hashes[:0]
     return pd.DataFrame(
         {
             "group": labels,
             "key": names_from_hashes(_mix(sums), prefix),
-            "record_ids": pd.array(joined, dtype="string"),
+            "record_ids": pd.arrays.ArrowStringArray(joined),
             "size": np.diff(np.append(starts, len(order))).astype(np.int64),
         }
     )

@@ -30,9 +30,11 @@ from __future__ import annotations
 
 import numpy as np
 import pandas as pd
+import pyarrow as pa
+import pyarrow.compute as pc
 
-from resolve.clusters.keys import components, join_runs, member_names, text_rank
-from resolve.clusters.sharing import entity_codes
+from resolve.clusters.keys import arrow_text, components, index_rank, join_runs_arrow, member_names_at
+from resolve.clusters.sharing import entity_codes, record_hashes, record_texts
 from resolve.links import REVIEW
 
 PREFIXES = {"entity": "ent-", "split": "spl-", "household": "hh-", "group": "grp-", "flagged": "flg-"}
@@ -71,7 +73,7 @@ def build_queue(
     (split kind, group kind, household evidence).
     ``flags``, when given, has ``record_id``, ``flag``, ``severity``.
     """
-    code, entity_ids, record_id = entity_codes(entities)
+    code, entity_ids, _ = entity_codes(entities)
     n_ent = len(entity_ids)
     a = links["rec_a"].to_numpy(dtype=np.int64)
     b = links["rec_b"].to_numpy(dtype=np.int64)
@@ -131,7 +133,7 @@ def build_queue(
         facts["detail"] = frame[detail_col].to_numpy(dtype=object)[first]
         parts[kind] = (e, item, facts)
 
-    severity = _record_severity(flags, record_id)
+    severity = _record_severity(flags, entities)
     if severity is not None:
         flagged = np.unique(code[severity > 0])
         covered = np.zeros(n_ent, dtype=bool)
@@ -141,18 +143,24 @@ def build_queue(
         if len(lonely):
             facts = pd.DataFrame({"score": np.nan, "uncertainty": 0.0, "detail": "flagged_records"}, index=range(len(lonely)))
             parts["flagged"] = (lonely, np.arange(len(lonely)), facts)
-    return _finish(parts, code, entity_ids, record_id, severity)
+    return _finish(parts, code, entity_ids, entities, severity)
 
 
-def _record_severity(flags: pd.DataFrame | None, record_id: np.ndarray) -> np.ndarray | None:
+def _record_severity(flags: pd.DataFrame | None, entities: pd.DataFrame) -> np.ndarray | None:
     """Highest flag severity (0..1) per rec, or None without flags."""
     if flags is None or len(flags) == 0:
         return None
     score = severity_score(flags["severity"]).groupby(flags["record_id"].astype("string").to_numpy()).max()
-    return pd.Series(record_id).map(score).fillna(0.0).to_numpy(dtype=float)
+    texts, _ = record_texts(entities)
+    where = pc.index_in(texts, value_set=arrow_text(score.index).cast(texts.type))  # each record's flags
+    where = where.to_numpy(zero_copy_only=False)
+    found = ~np.isnan(where.astype(float))
+    out = np.zeros(len(texts), dtype=float)
+    out[found] = score.to_numpy(dtype=float)[where[found].astype(np.int64)]
+    return out
 
 
-def _finish(parts, code, entity_ids, record_id, severity) -> pd.DataFrame:
+def _finish(parts, code, entity_ids, entities, severity) -> pd.DataFrame:
     """Expand items to records, name them, score priority and sort."""
     if not parts:
         return pd.DataFrame({c: pd.Series(dtype="string") for c in COLUMNS}).astype(
@@ -160,7 +168,10 @@ def _finish(parts, code, entity_ids, record_id, severity) -> pd.DataFrame:
         )
     by_entity = np.argsort(code, kind="stable")
     starts = np.concatenate([[0], np.cumsum(np.bincount(code, minlength=len(entity_ids)))])
-    entity_rank = text_rank(np.asarray(entity_ids, dtype=object))
+    entity_rank = index_rank(entity_ids)
+    entity_texts = arrow_text(entity_ids)
+    record_text, record_rank = record_texts(entities)
+    record_hash = record_hashes(entities)
     tables = []
     for kind, (e, item, facts) in parts.items():
         e = np.asarray(e, dtype=np.int64)
@@ -168,9 +179,9 @@ def _finish(parts, code, entity_ids, record_id, severity) -> pd.DataFrame:
         size = starts[e + 1] - starts[e]
         recs = by_entity[np.repeat(starts[e], size) + np.arange(size.sum()) - np.repeat(np.cumsum(size) - size, size)]
         rec_item = np.repeat(item, size)
-        named = member_names(rec_item, pd.Series(record_id[recs], dtype="string"), PREFIXES[kind])
+        named = member_names_at(rec_item, recs, record_text, record_rank, record_hash, PREFIXES[kind])
         order = np.lexsort((entity_rank[e], item))
-        labels, joined = join_runs(item[order], np.asarray(entity_ids, dtype=object)[e[order]])
+        labels, joined = join_runs_arrow(item[order], entity_texts.take(pa.array(e[order])))
         risk = np.full(len(named), KIND_RISK[kind])
         if kind == "group":
             risk = facts["detail"].map(GROUP_KIND_RISK).fillna(KIND_RISK["group"]).to_numpy()[named["group"].to_numpy()]
@@ -179,14 +190,15 @@ def _finish(parts, code, entity_ids, record_id, severity) -> pd.DataFrame:
             risk = np.maximum(risk, worst.reindex(named["group"]).fillna(0.0).to_numpy())
         table = pd.DataFrame(
             {
-                "cluster_key": named["key"].to_numpy(),
+                "cluster_key": named["key"].array,
                 "kind": kind,
                 "size": named["size"].to_numpy(),
                 "score": facts["score"].to_numpy(dtype=float)[named["group"].to_numpy()],
                 "uncertainty": facts["uncertainty"].fillna(0.0).to_numpy(dtype=float)[named["group"].to_numpy()],
                 "risk": risk,
-                "record_ids": named["record_ids"].to_numpy(),
-                "entity_ids": pd.Series(joined, index=labels).reindex(named["group"]).to_numpy(),
+                "record_ids": named["record_ids"].array,
+                "entity_ids": pd.arrays.ArrowStringArray(
+                    joined.take(pa.array(np.searchsorted(labels, named["group"].to_numpy())))),
                 "detail": facts["detail"].to_numpy(dtype=object)[named["group"].to_numpy()],
             }
         )

@@ -21,7 +21,7 @@ import pandas as pd
 from scipy.sparse import coo_matrix
 from scipy.sparse.csgraph import connected_components
 
-from resolve.signals.context import Inputs, entities_per_value, entity_pairs
+from resolve.signals.context import Inputs, distinct_sorted, entities_per_row, entity_pairs, rows_where
 
 
 def contact_pairs(inp: Inputs, kinds, statuses, max_per_value: int) -> pd.DataFrame:
@@ -30,30 +30,51 @@ def contact_pairs(inp: Inputs, kinds, statuses, max_per_value: int) -> pd.DataFr
     Values of ``kinds`` with a status in ``statuses``, held by two to ``max_per_value``
     distinct entities (busier values are hubs, reported by `identifier_hub`).
     """
-    ids = inp.ids
-    ids = ids[ids["kind"].isin(kinds) & ids["status"].isin(statuses) & (ids["kid"] >= 0)]
-    size = entities_per_value(ids)
-    rows = ids.loc[(size >= 2) & (size <= max_per_value), ["kid", "kind", "ent"]]
+    at = rows_where(inp, kinds, statuses)
+    size = entities_per_row(inp, at)
+    rows = inp.ids[["kid", "kind", "ent"]].iloc[at[(size >= 2) & (size <= max_per_value)]]
     pairs = entity_pairs(rows)
     kind = rows[["kid", "kind"]].drop_duplicates("kid")
     return pairs.merge(kind.assign(kind=kind["kind"].astype("string")), on="kid")
 
 
 def same_value(pairs: pd.DataFrame, holders: pd.DataFrame) -> np.ndarray:
-    """For each entity pair, whether both entities hold a common value in ``holders`` (ent, v)."""
+    """For each entity pair, whether both entities hold a common value in ``holders`` (ent, v).
+
+    Works on sorted integer keys: each pair's first entity's values are listed (a CSR walk
+    over the holders sorted by entity) and looked up among the second entity's.
+    """
     if len(pairs) == 0 or len(holders) == 0:
         return np.zeros(len(pairs), dtype=bool)
-    ent = holders["ent"].to_numpy()
-    involved = np.zeros(max(int(ent.max()), int(pairs["ent_a"].max()), int(pairs["ent_b"].max())) + 1, dtype=bool)
-    involved[pairs["ent_a"].to_numpy()] = True
-    involved[pairs["ent_b"].to_numpy()] = True
-    holders = holders[involved[ent]].drop_duplicates()
-    both = pairs[["ent_a", "ent_b"]].drop_duplicates()
-    both = both.merge(holders.rename(columns={"ent": "ent_a"}), on="ent_a")
-    both = both.merge(holders.rename(columns={"ent": "ent_b"}), on=["ent_b", "v"])
-    hit = both[["ent_a", "ent_b"]].drop_duplicates().assign(hit=True)
-    return pairs[["ent_a", "ent_b"]].merge(hit, on=["ent_a", "ent_b"], how="left")["hit"].fillna(
-        False).to_numpy(dtype=bool)
+    a = pairs["ent_a"].to_numpy(dtype=np.int64)
+    b = pairs["ent_b"].to_numpy(dtype=np.int64)
+    ent = holders["ent"].to_numpy(dtype=np.int64)
+    v = holders["v"].to_numpy(dtype=np.int64)
+    n = int(max(ent.max(), a.max(), b.max())) + 1
+    involved = np.zeros(n, dtype=bool)
+    involved[a] = True
+    involved[b] = True
+    keep = involved[ent]
+    ent, v = ent[keep], v[keep]
+    if len(v) and (int(v.max()) - int(v.min()) + 1) * n >= 2**62:  # keys would overflow: renumber
+        v = pd.factorize(v)[0].astype(np.int64)
+    v_min = int(v.min(initial=0))
+    width = np.int64(int(v.max(initial=0)) - v_min + 1)
+    held = distinct_sorted(ent * width + (v - v_min))  # sorted (entity, value) keys, once each
+    owner = held // width
+    start = np.searchsorted(owner, np.arange(n + 1))
+    count = start[a + 1] - start[a]
+    total = int(count.sum())
+    hit = np.zeros(len(a), dtype=bool)
+    if total == 0:
+        return hit
+    pair = np.repeat(np.arange(len(a)), count)
+    at = np.repeat(start[a], count) + np.arange(total) - np.repeat(np.cumsum(count) - count, count)
+    probe = b[pair] * width + held[at] % width
+    where = np.minimum(np.searchsorted(held, probe), len(held) - 1)
+    found = held[where] == probe
+    hit[pair[found]] = True
+    return hit
 
 
 def _household_linked(inp: Inputs, pairs: pd.DataFrame) -> np.ndarray:
@@ -73,9 +94,10 @@ def _household_linked(inp: Inputs, pairs: pd.DataFrame) -> np.ndarray:
 
 def _values_of(inp: Inputs, kind_mask: np.ndarray, max_per_value: int) -> pd.DataFrame:
     """(ent, v) for valid values of the rows in ``kind_mask`` held by at most ``max_per_value`` entities."""
-    rows = inp.ids[kind_mask & (inp.ids["status"] == "valid").to_numpy() & (inp.ids["kid"] >= 0).to_numpy()]
-    rows = rows[entities_per_value(rows) <= max_per_value]
-    return rows[["ent", "kid"]].rename(columns={"kid": "v"})
+    at = rows_where(inp, statuses=["valid"])
+    at = at[np.asarray(kind_mask, dtype=bool)[at]]
+    at = at[entities_per_row(inp, at) <= max_per_value]
+    return inp.ids[["ent", "kid"]].iloc[at].rename(columns={"kid": "v"})
 
 
 def first_opened(inp: Inputs) -> np.ndarray:
@@ -162,7 +184,8 @@ def main_family(inp: Inputs) -> pd.Series:
     indexed by ``ent``. Cached on ``inp``."""
     if "main_family" not in inp.cache:
         r = inp.records
-        named = r[r["family"] >= 0].sort_values(["ent", "created_at", "rec"], kind="stable", na_position="last")
+        named = r[["ent", "family", "created_at", "rec"]][(r["family"] >= 0).to_numpy()]
+        named = named.sort_values(["ent", "created_at", "rec"], kind="stable", na_position="last")
         first = named.drop_duplicates("ent").set_index("ent")["family"]
         n = int(r["ent"].max()) + 1 if len(r) else 0
         inp.cache["main_family"] = first.reindex(range(n), fill_value=-1)

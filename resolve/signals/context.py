@@ -5,6 +5,8 @@ same way of naming an identifier in a sentence without exposing it. Doing that o
 the rules short, makes sure no rule prints a full national ID, and turns the string columns
 the rules group on (identifier keys, names) into integer codes once, so that a million records
 and their identifiers are grouped with integer sorts rather than string hashing in every rule.
+The identifier codes start from those the cluster stage made (`resolve.signals.codebook`),
+and identifier texts are cleaned only for the rows a sentence names.
 """
 
 from __future__ import annotations
@@ -14,7 +16,9 @@ from dataclasses import dataclass, field
 import numpy as np
 import pandas as pd
 
+from resolve.clusters.codes import isin, take_text
 from resolve.errors import InputError
+from resolve.signals.codebook import category, clean_text, factorized, shared_value_codes
 
 KIND_NAMES = {"phone": "Phone", "email": "Email", "national_id": "National ID", "address": "Address"}
 
@@ -28,7 +32,9 @@ class Inputs:
     birth_year (float), created_at (datetime64, NaT).
     ``ids``: row (position in ``values``), rec, ent, kid (int code of kind + key, the value
     that is shared), kind, status, reason, detail (categoricals), created_at.
-    ``values``: the identifier values as text, for sentences only.
+    ``source``: the identifier rows ``ids`` was built from (``row`` is a position in it);
+    ``values``, their texts for sentences, is made from it when first read, and `texts` and
+    `describe` clean only the rows they are asked for.
     ``links``/``groups``: as given, or None. ``today``: a normalised Timestamp.
     ``rules``: the whole rule table of the run (rules that depend on another rule's settings
     read it). ``cache``: work shared between rules within one run.
@@ -36,20 +42,32 @@ class Inputs:
 
     records: pd.DataFrame
     ids: pd.DataFrame
-    values: pd.Series
+    source: pd.DataFrame
     links: pd.DataFrame | None
     groups: pd.DataFrame | None
     today: pd.Timestamp
     rules: dict = field(default_factory=dict)
     cache: dict = field(default_factory=dict)
 
+    @property
+    def values(self) -> pd.Series:
+        """The identifier values as text (the key when there is no value), by ``row``."""
+        if "values" not in self.cache:
+            self.cache["values"] = self._text(np.arange(len(self.source)))
+        return self.cache["values"]
+
+    def _text(self, rows: np.ndarray) -> pd.Series:
+        part = pd.DataFrame({c: take_text(self.source[c], rows) for c in ("value", "key")
+                             if c in self.source.columns}, index=pd.RangeIndex(len(rows)))
+        return _string(part, "value").fillna(_string(part, "key")).set_axis(rows)
+
     def texts(self, rows) -> np.ndarray:
         """The identifier values at positions ``rows`` (of ``values``) as an object array, "" when missing."""
-        return self.values.iloc[np.asarray(rows, dtype=np.int64)].to_numpy(dtype=object, na_value="")
+        return self._text(np.asarray(rows, dtype=np.int64)).to_numpy(dtype=object, na_value="")
 
     def describe(self, rows: pd.DataFrame) -> pd.Series:
         """Masked names of the identifiers on ``rows`` (a slice of ``ids``), aligned to them."""
-        value = self.values.iloc[rows["row"].to_numpy()]
+        value = self._text(rows["row"].to_numpy(dtype=np.int64))
         value.index = rows.index
         return describe(rows["kind"], value)
 
@@ -64,27 +82,44 @@ def _naive(values: pd.Series) -> pd.Series:
 def _string(frame: pd.DataFrame, column: str) -> pd.Series:
     if column not in frame.columns:
         return pd.Series(pd.NA, index=frame.index, dtype="string")
-    s = frame[column].astype("string").str.strip()
-    return s.mask(s == "")
+    return clean_text(frame[column])
 
 
-def _category(frame: pd.DataFrame, column: str) -> pd.Categorical:
-    """A low-cardinality text column (kind, status, reason, type) as a categorical, stripped
-    and with blanks as missing, cleaned once per distinct value."""
-    if column not in frame.columns:
-        return pd.Categorical([pd.NA] * len(frame), categories=pd.Index([], dtype="string"))
-    codes, uniques = pd.factorize(frame[column], use_na_sentinel=True)
-    clean = pd.Series(uniques, dtype="string").str.strip()
-    clean = clean.mask(clean == "")
-    again, categories = pd.factorize(clean, use_na_sentinel=True)
-    final = np.where(codes >= 0, np.append(again, -1)[codes], -1)
-    return pd.Categorical.from_codes(final, categories=pd.Index(categories, dtype="string"))
+def _dates(text: pd.Series) -> pd.Series:
+    """ISO date text parsed once per distinct value (NaT when unreadable)."""
+    codes, uniques = pd.factorize(text)
+    parsed = pd.to_datetime(pd.Series(uniques, dtype="string"), errors="coerce", format="ISO8601")
+    parsed = np.append(parsed.astype("datetime64[ns]").to_numpy(), np.datetime64("NaT", "ns"))
+    return pd.Series(parsed[codes], index=text.index)
 
 
 def _check_columns(name: str, frame: pd.DataFrame, columns: tuple[str, ...]) -> None:
     missing = [c for c in columns if c not in frame.columns]
     if missing:
         raise InputError(f"The {name} table has no '{missing[0]}' column; see docs/architecture.md.")
+
+
+def _entity_ids(entities: pd.DataFrame, rec: np.ndarray) -> tuple[pd.Series, np.ndarray]:
+    """The entity ID of each record (<NA> when it has none) and its entity code, by factorising
+    the IDs in record order (the cluster stage's codes when the tables line up)."""
+    n = len(rec)
+    given = entities["rec"].to_numpy()
+    if np.array_equal(rec, np.arange(n)) and np.array_equal(given, np.arange(n)):
+        entity_id = entities["entity_id"].reset_index(drop=True)
+        codes = factorized(entities["entity_id"])[0]
+    else:
+        ent_map = entities.drop_duplicates("rec").set_index("rec")["entity_id"]
+        entity_id = ent_map.reindex(rec).reset_index(drop=True)
+        codes = pd.factorize(entity_id, use_na_sentinel=True)[0]
+    return entity_id, np.array(codes, dtype=np.int64)
+
+
+def _identifier_rows(identifiers: pd.DataFrame, rec: np.ndarray) -> np.ndarray:
+    """Position in ``rec`` of each identifier row's record (-1 when not in the people table)."""
+    ident = identifiers["rec"].to_numpy(dtype=np.int64)
+    if np.array_equal(rec, np.arange(len(rec))):
+        return np.where((ident >= 0) & (ident < len(rec)), ident, -1)
+    return pd.Index(rec).get_indexer(ident)
 
 
 def prepare(people, identifiers, entities, links, groups, today) -> Inputs:
@@ -97,14 +132,12 @@ def prepare(people, identifiers, entities, links, groups, today) -> Inputs:
     _check_columns("entities", entities, ("rec", "entity_id"))
 
     rec = people["rec"].to_numpy(dtype=np.int64)
-    ent_map = entities.drop_duplicates("rec").set_index("rec")["entity_id"]
-    entity_id = ent_map.reindex(rec)
-    codes = pd.factorize(entity_id, use_na_sentinel=True)[0].astype(np.int64)
+    entity_id, codes = _entity_ids(entities, rec)
     lonely = codes < 0  # a record with no entity stands alone
     codes[lonely] = codes.max(initial=-1) + 1 + np.arange(int(lonely.sum()))
 
     names = pd.factorize(pd.concat([_string(people, "given_key"), _string(people, "family_key")]))[0]
-    birth = pd.to_datetime(_string(people, "birth_date"), errors="coerce", format="ISO8601")
+    birth = _dates(_string(people, "birth_date"))
     year = people["birth_year"] if "birth_year" in people.columns else pd.Series(np.nan, index=people.index)
     created = _naive(people["created_at"]) if "created_at" in people.columns else pd.Series(
         pd.NaT, index=people.index, dtype="datetime64[ns]"
@@ -116,37 +149,31 @@ def prepare(people, identifiers, entities, links, groups, today) -> Inputs:
         "ent": codes,
         "given": names[: len(people)].astype(np.int64),
         "family": names[len(people):].astype(np.int64),
-        "birth": birth.astype("datetime64[ns]").to_numpy(),
+        "birth": birth.to_numpy(),
         "birth_year": pd.to_numeric(year, errors="coerce").to_numpy(dtype=np.float64),
         "created_at": created.to_numpy(),
-    })
+    }, copy=False)  # fresh arrays: no need to copy them into one block
 
-    pos = pd.Index(rec).get_indexer(identifiers["rec"].to_numpy(dtype=np.int64))
+    pos = _identifier_rows(identifiers, rec)
     known = pos >= 0
-    idf = identifiers[known]
+    idf = identifiers if known.all() else identifiers[known]  # untouched columns keep their codes
     pos = pos[known]
-    value = _string(idf, "value").reset_index(drop=True)
-    key = _string(idf, "key").reset_index(drop=True)
-    kind = _category(idf, "kind")
-    key_code = pd.factorize(key.fillna(value))[0].astype(np.int64)  # the value shared
-    wide = np.where(key_code >= 0, key_code * (len(kind.categories) + 1) + kind.codes, -1)
-    kid = np.full(len(wide), -1, dtype=np.int64)
-    kid[wide >= 0] = pd.factorize(wide[wide >= 0])[0]
+    kind = category(idf, "kind")
     ids = pd.DataFrame({
         "row": np.arange(len(idf), dtype=np.int64),
         "rec": rec[pos],
         "ent": codes[pos],
-        "kid": kid,
+        "kid": shared_value_codes(idf, kind),
         "kind": kind,
-        "status": _category(idf, "status"),
-        "reason": _category(idf, "reason"),
-        "detail": _category(idf, "detail"),
+        "status": category(idf, "status"),
+        "reason": category(idf, "reason"),
+        "detail": category(idf, "detail"),
         "created_at": records["created_at"].to_numpy()[pos],
-    })
+    }, copy=False)
     stamp = pd.Timestamp.today() if today is None else pd.Timestamp(today)
     if stamp.tzinfo is not None:
         stamp = stamp.tz_convert(None)
-    return Inputs(records, ids, value.fillna(key), links, groups, stamp.normalize())
+    return Inputs(records, ids, idf, links, groups, stamp.normalize())
 
 
 def describe(kind: pd.Series, value: pd.Series) -> pd.Series:
@@ -201,6 +228,68 @@ def entities_per_value(rows: pd.DataFrame) -> np.ndarray:
     return counts[kid]
 
 
+def distinct_sorted(values: np.ndarray) -> np.ndarray:
+    """The distinct values, sorted (`np.unique` by a sort, quicker than its hashing here)."""
+    values = np.sort(np.asarray(values))
+    return values[np.r_[True, values[1:] != values[:-1]]] if len(values) else values
+
+
+def isin_ints(values: np.ndarray, wanted: np.ndarray) -> np.ndarray:
+    """``np.isin`` by a lookup table when both sides are integers (codes), else as usual."""
+    values, wanted = np.asarray(values), np.asarray(wanted)
+    table = values.dtype.kind in "iu" and wanted.dtype.kind in "iu"
+    return np.isin(values, wanted, kind="table" if table else None)
+
+
+def rows_where(inp: Inputs, kinds=None, statuses=None) -> np.ndarray:
+    """Positions in ``inp.ids`` of the rows with a shared value (``kid`` >= 0), of a kind in
+    ``kinds`` and a status in ``statuses`` (None: any)."""
+    ids = inp.ids
+    mask = ids["kid"].to_numpy() >= 0
+    if kinds is not None:
+        mask &= isin(ids["kind"], kinds)
+    if statuses is not None:
+        mask &= isin(ids["status"], statuses)
+    return np.flatnonzero(mask)
+
+
+def entities_per_row(inp: Inputs, positions: np.ndarray) -> np.ndarray:
+    """`entities_per_value` for the ``inp.ids`` rows at ``positions`` (a subset with every
+    ``kid`` >= 0). The rows whose value some other row also holds are sorted by (value,
+    entity) once per run, so each call is a pass over that order instead of a sort; a value
+    on one row only is held by one entity."""
+    ids = inp.ids
+    if "value_entity_order" not in inp.cache:
+        kid = ids["kid"].to_numpy(dtype=np.int64)
+        ent = ids["ent"].to_numpy(dtype=np.int64)
+        rows = np.flatnonzero(kid >= 0)
+        multi = rows[np.bincount(kid[rows])[kid[rows]] >= 2] if len(rows) else rows
+        width = np.int64(ent.max(initial=0) + 1)
+        key = kid[multi] * width + ent[multi]
+        order = np.argsort(key, kind="stable")
+        slot = np.full(len(ids), -1, dtype=np.int64)  # each sharing row's place in that order
+        slot[multi[order]] = np.arange(len(order))
+        inp.cache["value_entity_order"] = (key[order], slot, width)
+    key, slot, width = inp.cache["value_entity_order"]
+    positions = np.asarray(positions, dtype=np.int64)
+    out = np.ones(len(positions), dtype=np.int64)
+    at = slot[positions]
+    sharing = at >= 0
+    if not sharing.any():
+        return out
+    chosen = np.zeros(len(key), dtype=bool)
+    chosen[at[sharing]] = True
+    both = key[chosen]  # sorted (value, entity) keys of the chosen rows that share
+    value = both // width
+    new_value = np.r_[True, value[1:] != value[:-1]]
+    new_pair = np.r_[True, both[1:] != both[:-1]]
+    run = np.cumsum(new_value) - 1
+    per_value = np.bincount(run, weights=new_pair).astype(np.int64)  # distinct entities per value
+    place = np.cumsum(chosen) - 1  # a chosen row's place among the chosen
+    out[sharing] = per_value[run[place[at[sharing]]]]
+    return out
+
+
 def plural(n, singular: str, many: str) -> pd.Series:
     """``"1 entity"`` / ``"3 entities"`` for each count."""
     n = pd.Series(n).astype("int64")
@@ -215,10 +304,28 @@ def number_groups(keys: pd.Series, prefix: str) -> pd.Series:
 
 
 def entity_pairs(incidence: pd.DataFrame, on: str = "kid") -> pd.DataFrame:
-    """Pairs of distinct entities (ent_a < ent_b) that share a value of ``on``, with that value."""
+    """Pairs of distinct entities (ent_a < ent_b) that share a value of ``on``, with that value.
+
+    The rows come in the order a self-merge on ``on`` gives them (each holder in order, then
+    its partners in order), built with numpy: the holders of each value are listed once by a
+    stable sort and every holder is paired with its value's list.
+    """
     left = incidence[[on, "ent"]].drop_duplicates()
-    pairs = left.merge(left, on=on, suffixes=("_a", "_b"))
-    return pairs[pairs["ent_a"] < pairs["ent_b"]].reset_index(drop=True)
+    value, ent = left[on].to_numpy(), left["ent"].to_numpy()
+    if value.dtype.kind not in "iu" or ent.dtype.kind not in "iu":
+        pairs = left.merge(left, on=on, suffixes=("_a", "_b"))
+        return pairs[pairs["ent_a"] < pairs["ent_b"]].reset_index(drop=True)
+    order = np.argsort(value, kind="stable")
+    ordered = value[order]
+    starts = np.flatnonzero(np.r_[True, ordered[1:] != ordered[:-1]]) if len(value) else order
+    sizes = np.diff(np.r_[starts, len(value)])
+    group = np.empty(len(value), dtype=np.int64)
+    group[order] = np.repeat(np.arange(len(starts)), sizes)
+    count = sizes[group]  # partners of each holder, itself included
+    a = np.repeat(np.arange(len(value)), count)
+    b = order[np.repeat(starts[group], count) + np.arange(len(a)) - np.repeat(np.cumsum(count) - count, count)]
+    keep = ent[a] < ent[b]
+    return pd.DataFrame({on: value[a[keep]], "ent_a": ent[a[keep]], "ent_b": ent[b[keep]]})
 
 
 def hits(rec, reason, scope: str, group_id=None) -> pd.DataFrame:

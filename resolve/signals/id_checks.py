@@ -66,7 +66,7 @@ def typing_slips(inp: Inputs) -> pd.DataFrame:
     found = bad.iloc[0:0].assign(near_row=pd.Series(dtype=np.int64))
     if len(bad) and len(valid):
         r = inp.records
-        known = r[(r["family"] >= 0) & r["birth"].notna()]
+        known = r[["ent", "family", "birth"]][((r["family"] >= 0) & r["birth"].notna()).to_numpy()]
         bad_ents = bad["ent"].unique()
         mine = known[np.isin(known["ent"].to_numpy(), bad_ents)][["ent", "family", "birth"]].drop_duplicates()
         person = known[np.isin(known["family"].to_numpy(), mine["family"].to_numpy())]

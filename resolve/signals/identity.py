@@ -21,7 +21,8 @@ from scipy.sparse.csgraph import connected_components
 
 from resolve.errors import InputError
 from resolve.signals.contacts import ring_sets, unexplained_pairs
-from resolve.signals.context import Inputs, entities_per_value, entity_pairs, hits, number_groups, plural
+from resolve.signals.context import (Inputs, distinct_sorted, entities_per_value, entity_pairs, hits, isin_ints,
+                                     number_groups, plural, rows_where)
 from resolve.signals.id_checks import national_ids
 
 
@@ -40,7 +41,9 @@ def _conflicting_pairs(inp: Inputs, pairs: pd.DataFrame, either: bool, swap_agre
     With ``swap_agrees``, two birth dates that are equal once day and month are exchanged
     (03/04 read as 04/03, a common format confusion) are taken to agree.
     """
-    profiles = inp.records[["ent", "given", "family", "birth"]].drop_duplicates()
+    profiles = inp.records[["ent", "given", "family", "birth"]]
+    wanted = np.union1d(pairs["ent_a"].to_numpy(), pairs["ent_b"].to_numpy())
+    profiles = profiles[isin_ints(profiles["ent"].to_numpy(), wanted)].drop_duplicates()  # the pairs' only
     both = pairs.merge(profiles.add_suffix("_a"), on="ent_a").merge(profiles.add_suffix("_b"), on="ent_b")
     ga, fa, gb, fb = (both[c].to_numpy() for c in ("given_a", "family_a", "given_b", "family_b"))
     named = (ga >= 0) & (fa >= 0) & (gb >= 0) & (fb >= 0)
@@ -229,8 +232,8 @@ def _several_id_ends(inp: Inputs) -> tuple[pd.DataFrame, pd.DataFrame]:
     ids = national_ids(inp)
     ids = ids[ids["status"].isin(params["statuses"]) & (ids["kid"] >= 0)]
     # only entities holding two or more distinct IDs can qualify
-    both = np.unique(ids["ent"].to_numpy() * np.int64(len(inp.values) + 1) + ids["kid"].to_numpy())
-    per_ent = np.bincount(both // np.int64(len(inp.values) + 1), minlength=int(inp.records["ent"].max()) + 1)
+    both = distinct_sorted(ids["ent"].to_numpy() * np.int64(len(inp.ids) + 1) + ids["kid"].to_numpy())
+    per_ent = np.bincount(both // np.int64(len(inp.ids) + 1), minlength=int(inp.records["ent"].max()) + 1)
     ids = ids[per_ent[ids["ent"].to_numpy()] >= 2]
     if params["same_type_only"]:
         id_type = ids["detail"].astype("string").fillna("unknown")
@@ -258,8 +261,9 @@ def _merge_doubts(inp: Inputs, ids: pd.DataFrame, ends: pd.DataFrame) -> pd.Data
     is given with two different IDs)."""
     carrying = ids.merge(ends, on=["ent", "id_type", "kid"])[["rec", "ent", "id_type", "comp"]].drop_duplicates()
     keys = ends[["ent", "id_type"]].drop_duplicates().reset_index(drop=True)
-    contact = inp.ids[inp.ids["kind"].isin(["phone", "email", "address"]) & (inp.ids["status"] == "valid")
-                      & (inp.ids["kid"] >= 0)][["rec", "kid"]].rename(columns={"kid": "v"})
+    contact = inp.ids[["rec", "kid"]].iloc[rows_where(inp, ["phone", "email", "address"], ["valid"])]
+    contact = contact[isin_ints(contact["rec"].to_numpy(), carrying["rec"].to_numpy())]  # carriers' only
+    contact = contact.rename(columns={"kid": "v"})
     values = carrying.merge(contact, on="rec")[["ent", "id_type", "comp", "v"]].drop_duplicates()
     spread = values.groupby(["ent", "id_type", "v"]).size()
     linked = spread[spread >= 2].reset_index()[["ent", "id_type"]].drop_duplicates().assign(linked=True)
@@ -281,7 +285,9 @@ def _several_rows(inp: Inputs, doubt: bool) -> pd.DataFrame:
     ids, ends = _several_id_ends(inp)
     flagged = ids.merge(ends, on=["ent", "id_type", "kid"])
     if inp.rules["several_national_ids_merge_doubt"]["enabled"] and len(flagged):
-        flagged = flagged.merge(_merge_doubts(inp, ids, ends), on=["ent", "id_type"])
+        if "merge_doubts" not in inp.cache:  # both rules of several IDs ask
+            inp.cache["merge_doubts"] = _merge_doubts(inp, ids, ends)
+        flagged = flagged.merge(inp.cache["merge_doubts"], on=["ent", "id_type"])
         mark = (flagged["apart"] | flagged["births_differ"]).to_numpy(dtype=bool)
         return flagged[mark == doubt]
     return flagged if not doubt else flagged.iloc[0:0]

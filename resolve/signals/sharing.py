@@ -13,15 +13,16 @@ import numpy as np
 import pandas as pd
 
 from resolve.signals.contacts import main_family, ring_sets
-from resolve.signals.context import Inputs, entities_per_value, hits, number_groups, plural
+from resolve.signals.context import (Inputs, entities_per_row, entities_per_value, hits, isin_ints, number_groups,
+                                     plural, rows_where)
 
 KIND_PLURALS = {"phone": ("phone", "phones"), "email": ("email", "emails"),
                 "national_id": ("national ID", "national IDs"), "address": ("address", "addresses")}
 
 
-def _shared(inp: Inputs, params: dict) -> pd.DataFrame:
-    ids = inp.ids
-    return ids[ids["kind"].isin(params["kinds"]) & ids["status"].isin(params["statuses"]) & (ids["kid"] >= 0)]
+def _shared_rows(inp: Inputs, params: dict) -> np.ndarray:
+    """Positions in ``inp.ids`` of the rows of ``kinds`` and ``statuses`` with a shared value."""
+    return rows_where(inp, params["kinds"], params["statuses"])
 
 
 def placeholder(inp: Inputs, params: dict) -> pd.DataFrame:
@@ -52,8 +53,12 @@ def hub(inp: Inputs, params: dict) -> pd.DataFrame:
     entities (an entity with no family name counts as one of its own), so that one household
     whose members were not all merged into single entities is not taken for a hub.
     """
-    ids = _shared(inp, params)
-    n = entities_per_value(ids)
+    at = _shared_rows(inp, params)
+    # only values held by more entities than the lowest limit can be hubs; all their rows stay
+    lowest = min([int(params["max_entities"])] + [int(v) for v in params["max_entities_by_kind"].values()])
+    at = at[entities_per_row(inp, at) > lowest]
+    ids = inp.ids.iloc[at]
+    n = entities_per_row(inp, at)
     limit = np.full(len(ids), int(params["max_entities"]), dtype=np.int64)
     for kind, value in params["max_entities_by_kind"].items():
         limit[(ids["kind"] == kind).to_numpy()] = int(value)
@@ -85,7 +90,9 @@ def _set_labels(inp: Inputs, members: pd.DataFrame, fallback: pd.Series, prefix:
     groups = inp.groups
     if groups is None or len(groups) == 0 or not {"entity_id", "group_id"} <= set(groups.columns):
         return local
-    codes = inp.records[["entity_id", "ent"]].dropna().drop_duplicates("ent")
+    records = inp.records[["entity_id", "ent"]]
+    records = records[isin_ints(records["ent"].to_numpy(), members["ent"].to_numpy())]  # members only
+    codes = records.dropna().drop_duplicates("ent")
     codes = codes.assign(entity_id=codes["entity_id"].astype("string"))
     given = groups[["entity_id", "group_id"]].astype({"entity_id": "string", "group_id": "string"})
     given = given.drop_duplicates("entity_id").merge(codes, on="entity_id")
@@ -147,7 +154,10 @@ def burst(inp: Inputs, params: dict) -> pd.DataFrame:
     counts as a name of its own.
     """
     k = int(params["min_entities"])
-    ids = _shared(inp, params).dropna(subset=["created_at"])
+    at = _shared_rows(inp, params)
+    at = at[inp.ids["created_at"].notna().to_numpy()[at]]
+    at = at[entities_per_row(inp, at) >= k]  # a value held by fewer entities cannot burst
+    ids = inp.ids.iloc[at]
     first = ids.groupby(["kid", "ent"], sort=False)["created_at"].min().reset_index()
     first = first.sort_values(["kid", "created_at", "ent"], kind="stable").reset_index(drop=True)
     keys = first["kid"].to_numpy()
