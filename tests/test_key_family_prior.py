@@ -217,3 +217,28 @@ def test_family_prior_recovers_matches_one_prior_under_scores():
     assert recall_family > recall_one + 0.08
     assert precision_family > 0.99
     assert per_family.group_priors[2] > 0.9 > 0.01 > per_family.group_priors[1]
+
+
+def test_workbench_evidence_adds_up_to_the_stored_weight(tmp_path):
+    """The workbench shows each pair's family prior: prior plus field weights give the
+    weight the pipeline stored, for every stored pair of a real run on the bundled sample."""
+    from pathlib import Path
+
+    from resolve.pipeline import RunSettings, run_pipeline
+    from resolve.project import Project
+    from tui.index import RunIndex
+
+    sample = Path(__file__).resolve().parents[1] / "fixtures" / "sample" / "customers.csv"
+    run_pipeline([sample], tmp_path / "p", settings=RunSettings(today="2026-12-01"))
+    run = Project.open(tmp_path / "p").latest_run()
+    model = json.loads((run.path / "model.json").read_text())
+    assert set(model["prior"]["by_key_family"]) <= set(KEY_FAMILIES)
+    index = RunIndex(run)
+    pairs = index.pairs.take(list(range(min(len(index.pair_a), 200)))).to_pylist()
+    families = set()
+    for pair in pairs:
+        rows = {r["field"]: r for r in index.evidence(pair, model)}
+        fields = sum(r["weight"] for name, r in rows.items() if name not in ("prior", "total"))
+        assert rows["prior"]["weight"] + fields == pytest.approx(pair["weight"], abs=1e-3)
+        families.add(rows["prior"]["meaning"])
+    assert len(families) >= 2  # the sample's pairs come from more than one key family

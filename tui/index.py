@@ -106,7 +106,7 @@ class RunIndex:
         self.identifiers = rows_of(ids)
         self.identifier_by_rec = KeyOrder(ids.column("rec").to_numpy() if ids is not None else [])
 
-        pair_cols = ["rec_a", "rec_b", "weight", "prob", "link_type",
+        pair_cols = ["rec_a", "rec_b", "keys", "weight", "prob", "link_type",
                      *[s.column for s in FIELDS], *[s.weight_column for s in FIELDS]]
         pairs = read(run, "pairs", pair_cols)
         self.pairs = rows_of(pairs)
