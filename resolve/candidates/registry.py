@@ -136,3 +136,11 @@ def key_family(keys) -> np.ndarray:
     identifier = (k & _IDENTIFIER_MASK) != 0
     family = np.where(person & identifier, 2, np.where(person, 1, 0))
     return np.where(person | identifier, family, -1).astype(np.int8)
+
+
+def family_of(keys: int | None) -> str | None:
+    """Name of one pair's key family (`KEY_FAMILIES`), or None for no mask or an empty one."""
+    if keys is None:
+        return None
+    code = int(key_family(np.array([int(keys)]))[0])
+    return KEY_FAMILIES[code] if code >= 0 else None

@@ -18,7 +18,7 @@ import pandas as pd
 
 from resolve.compare.align import CompareSettings, pair_arrays
 from resolve.compare.levels import FIELD_BY_NAME, FIELDS, FieldSpec, Level, field_spec
-from resolve.compare.records import PreparedRecords, prepare_records
+from resolve.compare.records import PreparedRecords, as_prepared, prepare_records
 
 __all__ = [
     "FIELDS",
@@ -54,12 +54,7 @@ def compare_pairs(
     columns followed by ``lvl_given_name``, ``lvl_family_name``, ``lvl_suffix``,
     ``lvl_birth_date``, ``lvl_national_id``, ``lvl_phone``, ``lvl_email``, ``lvl_address``.
     """
-    if isinstance(people, PreparedRecords):
-        prepared = people
-    else:
-        if identifiers is None:
-            identifiers = pd.DataFrame(columns=["rec", "kind", "key", "status", "detail"])
-        prepared = prepare_records(people, identifiers, settings)
+    prepared = as_prepared(people, identifiers, settings)
     a, b = pair_arrays(pairs, prepared.n)
     levels = prepared.compare(a, b)
     out = pairs.copy()

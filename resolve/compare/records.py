@@ -138,3 +138,18 @@ def prepare_records(
         column_index=index,
         settings=cfg,
     )
+
+
+def as_prepared(
+    people: "pd.DataFrame | PreparedRecords",
+    identifiers: pd.DataFrame | None = None,
+    settings: CompareSettings | Mapping[str, Any] | None = None,
+) -> PreparedRecords:
+    """``people`` as `PreparedRecords`: passed through when already prepared (then
+    ``identifiers`` and ``settings`` are ignored), else prepared with ``identifiers`` (an
+    empty identifier table when None)."""
+    if isinstance(people, PreparedRecords):
+        return people
+    if identifiers is None:
+        identifiers = pd.DataFrame(columns=["rec", "kind", "key", "status", "detail"])
+    return prepare_records(people, identifiers, settings)

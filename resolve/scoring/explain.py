@@ -9,13 +9,12 @@ characters unless asked otherwise.
 
 from __future__ import annotations
 
-import math
-
 import numpy as np
 import pandas as pd
 
-from resolve.candidates.registry import KEY_FAMILIES, key_family
-from resolve.compare import FIELDS, PreparedRecords, compare_pairs, prepare_records
+from resolve.candidates.registry import family_of
+from resolve.compare import FIELDS, PreparedRecords, compare_pairs
+from resolve.compare.records import as_prepared
 from resolve.compare.align import text_column
 from resolve.errors import InputError
 from resolve.scoring.model import MatchModel, weight_to_probability
@@ -81,12 +80,7 @@ def explain_pair(
     blocking-key mask as stored with the run: the prior is then that of the pair's key
     family (`MatchModel.family_prior`); without it, the overall prior.
     """
-    if isinstance(people, PreparedRecords):
-        prepared = people
-    else:
-        if identifiers is None:
-            identifiers = pd.DataFrame(columns=["rec", "kind", "key", "status", "detail"])
-        prepared = prepare_records(people, identifiers)
+    prepared = as_prepared(people, identifiers)
     a, b = sorted((int(rec_a), int(rec_b)))
     if a == b or a < 0 or b >= prepared.n:
         raise InputError(
@@ -95,12 +89,8 @@ def explain_pair(
     pair = pd.DataFrame({"rec_a": np.array([a], np.int32), "rec_b": np.array([b], np.int32)})
     compared = compare_pairs(pair, prepared)
     weights, tf_used = field_weights(compared, model, prepared, with_tf_u=True)
-    family = None
-    if keys is not None:
-        code = int(key_family(np.array([int(keys)]))[0])
-        family = KEY_FAMILIES[code] if code >= 0 else None
-    prior = model.family_prior(family)
-    prior_weight = math.log2(prior / (1.0 - prior))
+    family = family_of(keys)
+    prior, prior_weight = model.family_prior(family), model.family_prior_weight(family)
 
     rows = []
     for spec in FIELDS:
@@ -162,10 +152,7 @@ def stored_prior(model: dict, keys: int | None) -> tuple[float | None, str]:
     For screens that show stored scores without loading a `MatchModel`.
     """
     prior = model.get("prior") or {}
-    family = None
-    if keys is not None:
-        code = int(key_family(np.array([int(keys)]))[0])
-        family = KEY_FAMILIES[code] if code >= 0 else None
+    family = family_of(keys)
     entry = (prior.get("by_key_family") or {}).get(family) if family else None
     if entry is not None:
         return float(entry["weight"]), f"starting weight of pairs proposed by {FAMILY_WORDS[family]}"

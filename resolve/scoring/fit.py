@@ -30,7 +30,7 @@ import pandas as pd
 
 from resolve.candidates.registry import KEY_FAMILIES, key_family
 from resolve.compare import FIELD_BY_NAME, FIELDS, CompareSettings, PreparedRecords
-from resolve.compare import prepare_records
+from resolve.compare.records import as_prepared
 from resolve.compare.align import pair_arrays
 from resolve.compare.levels import DIFFERENT, FieldSpec
 from resolve.errors import InputError
@@ -163,12 +163,7 @@ def fit_model(
     matches and errors under the model's own probabilities.
     """
     cfg = ScoringSettings.coerce(settings)
-    if isinstance(people, PreparedRecords):
-        prepared = people
-    else:
-        if identifiers is None:
-            identifiers = pd.DataFrame(columns=["rec", "kind", "key", "status", "detail"])
-        prepared = prepare_records(people, identifiers, compare_settings)
+    prepared = as_prepared(people, identifiers, compare_settings)
     if len(compared) == 0:
         raise InputError(
             "There are no candidate pairs to fit a match model on; "

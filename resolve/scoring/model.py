@@ -207,14 +207,16 @@ class MatchModel:
         """λ of a key family (the overall λ for None or a family the model lacks)."""
         return self.family_priors.get(family, self.prior) if family else self.prior
 
+    def family_prior_weight(self, family: str | None) -> float:
+        """log2(λ / (1 - λ)) of a key family's λ (`family_prior`)."""
+        p = self.family_prior(family)
+        return math.log2(p / (1.0 - p))
+
     def prior_weights(self, keys) -> np.ndarray:
         """Starting weight of each pair, float64, from its blocking ``keys`` masks (a mask
         of 0, no key, starts from the overall λ)."""
         codes = key_family(keys)
-        table = np.array(
-            [math.log2(p / (1.0 - p)) for p in (self.family_prior(f) for f in KEY_FAMILIES)]
-            + [self.prior_weight]
-        )
+        table = np.array([self.family_prior_weight(f) for f in KEY_FAMILIES] + [self.prior_weight])
         return table[np.where(codes < 0, len(KEY_FAMILIES), codes)]
 
     def field_names(self) -> list[str]:

@@ -15,7 +15,8 @@ from typing import Any, Mapping
 import numpy as np
 import pandas as pd
 
-from resolve.compare import FIELDS, CompareSettings, PreparedRecords, prepare_records
+from resolve.compare import FIELDS, CompareSettings, PreparedRecords
+from resolve.compare.records import as_prepared
 from resolve.compare.align import pair_arrays
 from resolve.errors import InputError
 from resolve.scoring.model import MatchModel, weight_to_probability
@@ -97,13 +98,7 @@ def score_pairs(
     prior weight, log2 odds) and float64 ``prob``. The prior weight is that of the pair's
     key family when ``compared`` has the blocking ``keys`` column, else the overall one.
     """
-    prepared: PreparedRecords | None
-    if people is None or isinstance(people, PreparedRecords):
-        prepared = people
-    else:
-        if identifiers is None:
-            identifiers = pd.DataFrame(columns=["rec", "kind", "key", "status", "detail"])
-        prepared = prepare_records(people, identifiers, settings)
+    prepared = None if people is None else as_prepared(people, identifiers, settings)
     weights, _ = field_weights(compared, model, prepared)
     out = compared.copy()
     if "keys" in compared.columns:
