@@ -33,9 +33,8 @@ def explain_records(project_dir, record_a: str, record_b: str) -> pd.DataFrame:
 
 def _stored_keys(run, a: int, b: int) -> int | None:
     """The blocking-key mask stored for this pair, or None when blocking did not propose it."""
-    a, b = min(a, b), max(a, b)
-    pairs = run.table("pairs", ["rec_a", "rec_b", "keys"])
-    hit = pairs[(pairs["rec_a"].to_numpy() == a) & (pairs["rec_b"].to_numpy() == b)]
+    hit = run.table("pairs", ["keys"], filters=[("rec_a", "==", min(a, b)),
+                                                ("rec_b", "==", max(a, b))])
     return int(hit["keys"].iloc[0]) if len(hit) else None
 
 

@@ -242,3 +242,21 @@ def test_workbench_evidence_adds_up_to_the_stored_weight(tmp_path):
         assert rows["prior"]["weight"] + fields == pytest.approx(pair["weight"], abs=1e-3)
         families.add(rows["prior"]["meaning"])
     assert len(families) >= 2  # the sample's pairs come from more than one key family
+
+
+def test_explain_command_scores_a_stored_pair_as_the_run_did(tmp_path):
+    from pathlib import Path
+
+    from resolve.explain_cli import explain_records
+    from resolve.pipeline import RunSettings, run_pipeline
+    from resolve.project import Project
+
+    sample = Path(__file__).resolve().parents[1] / "fixtures" / "sample" / "customers.csv"
+    run_pipeline([sample], tmp_path / "p", settings=RunSettings(today="2026-12-01"))
+    run = Project.open(tmp_path / "p").latest_run()
+    ids = run.table("people", ["record_id"])["record_id"].astype(str).to_numpy()
+    pairs = run.table("pairs", ["rec_a", "rec_b", "keys", "weight"])
+    person_only = pairs[key_family(pairs["keys"].to_numpy()) == KEY_FAMILIES.index("person")]
+    for pair in (pairs.iloc[0], person_only.iloc[0] if len(person_only) else pairs.iloc[-1]):
+        table = explain_records(tmp_path / "p", ids[int(pair.rec_a)], ids[int(pair.rec_b)]).set_index("field")
+        assert table.loc["total", "weight"] == pytest.approx(float(pair.weight), abs=1e-3)

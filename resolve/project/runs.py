@@ -116,11 +116,14 @@ class Run:
     def has(self, name: str) -> bool:
         return (self.path / f"{name}.parquet").exists()
 
-    def table(self, name: str, columns: list[str] | None = None) -> pd.DataFrame:
+    def table(self, name: str, columns: list[str] | None = None,
+              filters: list[tuple] | None = None) -> pd.DataFrame:
+        """One saved table as pandas; ``filters`` (pyarrow's list of (column, op, value))
+        keep only matching rows, skipping row groups whose statistics rule them out."""
         p = self.path / f"{name}.parquet"
         if not p.exists():
             raise ProjectError(f"run {self.run_id} has no '{name}' table; re-run the pipeline.")
-        return pq.read_table(p, columns=columns).to_pandas()
+        return pq.read_table(p, columns=columns, filters=filters).to_pandas()
 
     @property
     def manifest(self) -> dict:
