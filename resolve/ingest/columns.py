@@ -14,22 +14,7 @@ import pandas as pd
 import pyarrow as pa
 import pyarrow.compute as pc
 
-STRING = pa.large_string()
-
-
-def arrow_of(values: pd.Series) -> pa.Array:
-    """The values of a Series as one Arrow ``large_string`` array (nulls for <NA>)."""
-    arr = pa.array(values.astype("string").array)
-    if isinstance(arr, pa.ChunkedArray):
-        arr = arr.combine_chunks() if arr.num_chunks != 1 else arr.chunk(0)
-    return arr if arr.type == STRING else arr.cast(STRING)
-
-
-def as_series(arr: pa.Array) -> pd.Series:
-    """Wrap an Arrow string array as a pandas ``string`` Series with a fresh RangeIndex."""
-    if arr.type != STRING:
-        arr = arr.cast(STRING)
-    return pd.Series(pd.arrays.ArrowStringArray(pa.chunked_array([arr], STRING)))
+from resolve.normalise.textkeys import STRING, to_arrow, to_series
 
 
 def trimmed(values: pd.Series) -> pd.Series:
@@ -39,13 +24,13 @@ def trimmed(values: pd.Series) -> pd.Series:
     ``utf8_trim_whitespace`` too); the blank-to-null step is skipped when no value is blank,
     which is the usual case because the readers already give empty fields as null.
     """
-    arr = arrow_of(values)
+    arr = to_arrow(values)
     if _may_have_outer_space(arr):
         arr = pc.utf8_trim_whitespace(arr)
     blank = pc.equal(arr, "")
     if pc.any(blank).as_py():
         arr = pc.if_else(blank, pa.scalar(None, STRING), arr)
-    return as_series(arr)
+    return to_series(arr)
 
 
 # White space as Arrow's trim sees it (Unicode category Zs and the bidirectional classes
@@ -95,12 +80,12 @@ def _may_have_outer_space(arr: pa.Array) -> bool:
 
 def constant(text: str, n: int) -> pd.Series:
     """A ``string`` Series holding ``text`` ``n`` times."""
-    return as_series(pa.repeat(pa.scalar(text, STRING), n))
+    return to_series(pa.repeat(pa.scalar(text, STRING), n))
 
 
 def blank(n: int) -> pd.Series:
     """A ``string`` Series of ``n`` <NA> values."""
-    return as_series(pa.nulls(n, STRING))
+    return to_series(pa.nulls(n, STRING))
 
 
 def longer_than(values: pd.Series, limit: int) -> np.ndarray:
@@ -109,7 +94,7 @@ def longer_than(values: pd.Series, limit: int) -> np.ndarray:
     A value never has more characters than bytes, so the character count is only taken when
     some value is longer than ``limit`` in bytes.
     """
-    arr = arrow_of(values)
+    arr = to_arrow(values)
     n = len(arr)
     if n == 0 or arr.null_count == n:
         return np.zeros(n, dtype=bool)
@@ -122,5 +107,5 @@ def longer_than(values: pd.Series, limit: int) -> np.ndarray:
 
 def all_distinct(values: pd.Series) -> bool:
     """True when no value repeats (a null counts as a value), found by hashing in Arrow."""
-    arr = arrow_of(values)
+    arr = to_arrow(values)
     return len(pc.unique(arr)) == len(arr)
